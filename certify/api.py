@@ -1,0 +1,154 @@
+"""The Python surface: certify equilibria of a model, verify certificate files."""
+
+from __future__ import annotations
+
+import json
+from dataclasses import dataclass, field
+from fractions import Fraction
+from pathlib import Path
+
+from .check import CertificateRejected, Verified, check, load
+from .errors import InputError
+from .model import Interval, Model, load_model
+from .search.equilibrium import (DEFAULT_MAX_PRECISION, DEFAULT_PRECISION, Attempt,
+                                 certify_guess)
+
+TYPES = {"flow": ("sink", "source"), "map": ("attracting", "repelling")}
+
+
+@dataclass
+class EquilibriumResult:
+    """One certified (or undecided) equilibrium, fixed point or periodic point."""
+
+    verdict: str  # "hyperbolic", "not hyperbolic" or "undecided"
+    reason: str | None
+    message: str
+    kind: str
+    variables: tuple[str, ...]
+    parameters: dict[str, Interval]
+    guess: dict[str, float]
+    period: int = 1
+    stable_dimension: int | None = None
+    unstable_dimension: int | None = None
+    enclosure: dict[str, Interval] | None = None
+    eigenvalues: list[dict] = field(default_factory=list)  # {"re": (lo, hi), "im": (lo, hi)}
+    pieces: int = 0
+    precision: int = DEFAULT_PRECISION
+    certificate: dict | None = None
+    certificate_path: str | None = None
+
+    @property
+    def type(self) -> str | None:
+        """Return sink / source / saddle (flows) or attracting / repelling / saddle (maps)."""
+        if self.verdict != "hyperbolic":
+            return None
+        stable_word, unstable_word = TYPES[self.kind]
+        if self.unstable_dimension == 0:
+            return stable_word
+        return unstable_word if self.stable_dimension == 0 else "saddle"
+
+
+def equilibrium(model: Model | str | Path, guesses: list[dict[str, float]] | None = None,
+                parameters: dict[str, Interval] | None = None, period: int = 1,
+                precision: int = DEFAULT_PRECISION,
+                max_precision: int = DEFAULT_MAX_PRECISION) -> list[EquilibriumResult]:
+    """Return one result per guess: a verdict proved by the checker, or undecided with a reason."""
+    if not isinstance(model, Model):
+        model = load_model(model)
+    if parameters:
+        model = model.with_parameters(parameters)
+    if period != 1 and model.kind != "map":
+        raise InputError("--period is for maps only (kind = \"map\")", model.source, "--period")
+    if not 1 <= period <= 64:
+        raise InputError("the period must be between 1 and 64", model.source, "--period")
+    guesses = list(guesses or model.guesses)
+    if not guesses:
+        raise InputError("no starting point: give --guess or [[guesses]] in the model",
+                         model.source, "guesses")
+    for g in guesses:
+        missing = [v for v in model.variables if v not in g]
+        extra = [k for k in g if k not in model.variables]
+        if missing or extra:
+            what = f"no value for {', '.join(missing)}" if missing else \
+                f"'{extra[0]}' is not a variable"
+            raise InputError(what, model.source, "--guess")
+    return [_result(model, certify_guess(model, g, period, precision, max_precision), period)
+            for g in guesses]
+
+
+def _result(model: Model, attempt: Attempt, period: int) -> EquilibriumResult:
+    res = EquilibriumResult(verdict=attempt.verdict, reason=attempt.reason,
+                            message=attempt.message, kind=model.kind,
+                            variables=model.variables, parameters=attempt.parameters,
+                            guess=attempt.guess, period=period, precision=attempt.precision,
+                            certificate=attempt.certificate)
+    ver = attempt.verified
+    if ver is None:
+        return res
+    res.enclosure = {v: (min(e[i][0] for e in ver.enclosures), max(e[i][1] for e in
+                                                                   ver.enclosures))
+                     for i, v in enumerate(model.variables)}
+    res.pieces = ver.pieces
+    if ver.claim["verdict"] == "hyperbolic":
+        res.stable_dimension = ver.claim["stable_dimension"]
+        res.unstable_dimension = ver.claim["unstable_dimension"]
+        if ver.pieces == 1:
+            res.eigenvalues = _eigenvalues(model, attempt.certificate, period)
+    return res
+
+
+def _eigenvalues(model: Model, cert: dict, period: int) -> list[dict]:
+    """Return enclosures of the eigenvalues over J(X, P) where Arb's Rump method isolates them.
+
+    Informational only: the verdict comes from the certificate, never from these.
+    """
+    from flint import acb_mat, arb_mat
+
+    from .check.ad import evaluate
+    from .check.arith import ArbArithmetic
+
+    piece = cert["pieces"][0]
+    ar = ArbArithmetic(cert["precision"])
+    frac = [tuple(Fraction(x) for x in pair) for pair in piece["box"]]
+    pb = [tuple(Fraction(x) for x in piece["parameters"][p]) for p in model.parameters]
+    try:
+        with ar.active():
+            _, jac = evaluate(model.tape, ar, [ar.interval(lo, hi) for lo, hi in frac],
+                              [ar.interval(lo, hi) for lo, hi in pb], period)
+            values = acb_mat(arb_mat(jac)).eig(algorithm="rump")
+            out = []
+            for z in values:
+                out.append({"re": ar.bounds(z.real), "im": ar.bounds(z.imag)})
+    except (ValueError, ArithmeticError):
+        return []
+    return sorted(out, key=lambda e: (e["re"][0], e["im"][0]))
+
+
+def verify(source: str | Path | dict, arithmetic: str = "flint") -> Verified:
+    """Return what a certificate proves, or raise CertificateRejected; source is a path or dict."""
+    if isinstance(source, dict):
+        return check(source, arithmetic)
+    try:
+        text = Path(source).read_bytes()
+    except OSError as exc:
+        raise CertificateRejected("malformed", "file", f"cannot read ({exc.strerror})") from None
+    return check(load(text), arithmetic)
+
+
+def write_certificate(cert: dict, path: str | Path) -> None:
+    """Write a certificate atomically: a temporary file in the same folder, then a rename."""
+    import os
+    import tempfile
+
+    target = Path(path)
+    fd, tmp = tempfile.mkstemp(prefix=".tmp-", suffix=".json", dir=target.parent or ".")
+    try:
+        with os.fdopen(fd, "w") as fh:
+            json.dump(cert, fh, indent=1)
+            fh.write("\n")
+            fh.flush()
+            os.fsync(fh.fileno())
+        os.replace(tmp, target)
+    except BaseException:
+        Path(tmp).unlink(missing_ok=True)
+        raise

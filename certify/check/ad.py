@@ -1,0 +1,129 @@
+"""Forward-mode automatic differentiation of a tape over any arithmetic of arith.py.
+
+A dual number is (value, gradient) where the gradient is a dict {state index: derivative};
+quantities that depend on parameters only carry an empty dict, so their derivatives are never
+formed (sqrt(p) over p in [0, 1] is fine; sqrt(x) needs x > 0 for its derivative).
+"""
+
+from __future__ import annotations
+
+from fractions import Fraction
+
+from .arith import DomainError
+from .expr import Tape
+
+Dual = tuple[object, dict]
+
+
+def _scale(g: dict, c) -> dict:
+    return {i: d * c for i, d in g.items()}
+
+
+def _combine(ga: dict, ca, gb: dict, cb) -> dict:
+    """Return ga*ca + gb*cb (ca or cb None means coefficient 1)."""
+    out = {i: (d if ca is None else d * ca) for i, d in ga.items()}
+    for i, d in gb.items():
+        t = d if cb is None else d * cb
+        out[i] = out[i] + t if i in out else t
+    return out
+
+
+def run(tape: Tape, ar, inputs: list[Dual], params: list) -> list[Dual]:
+    """Evaluate the tape on state duals and parameter values; return the output duals."""
+    slots: list[Dual] = list(inputs) + [(p, {}) for p in params]
+    one = ar.const(Fraction(1))
+    for op, a, b, what in tape.code:
+        if op == "num":
+            slots.append((ar.const(a), {}))
+            continue
+        va, ga = slots[a]
+        if op == "add" or op == "sub":
+            vb, gb = slots[b]
+            if op == "add":
+                slots.append((va + vb, _combine(ga, None, gb, None)))
+            else:
+                slots.append((va - vb, _combine(ga, None, _scale(gb, -one), None)))
+        elif op == "mul":
+            vb, gb = slots[b]
+            slots.append((va * vb, _combine(ga, vb, gb, va)))
+        elif op == "div":
+            vb, gb = slots[b]
+            v = ar.div(va, vb, what)
+            g = _combine(ga, None, gb, -v) if gb else ga
+            slots.append((v, _scale(g, ar.div(one, vb, what)) if g else {}))
+        elif op == "neg":
+            slots.append((-va, _scale(ga, -one)))
+        elif op == "pow":
+            slots.append(_power(ar, slots[a], slots[b], what))
+        else:
+            slots.append(_function(ar, b, va, ga, what))
+    return [slots[i] for i in tape.outputs]
+
+
+def _power(ar, base: Dual, expo: Dual, what: str) -> Dual:
+    """Return base**expo: an integer power when the exponent is an exact integer, else exp(e log b)."""
+    vb, gb = base
+    ve, ge = expo
+    n = ar.exact_integer(ve) if not ge else None
+    if n is not None and abs(n) <= 1000:
+        v = ar.ipow(vb, n, what)
+        if not gb or n == 0:
+            return v, {}
+        return v, _scale(gb, ar.const(Fraction(n)) * ar.ipow(vb, n - 1, what))
+    if not ar.positive(vb):
+        raise DomainError(what, "non-integer power of an interval reaching <= 0")
+    lb = ar.call("log", vb, what)
+    v = ar.call("exp", ve * lb, what)
+    g = _combine(gb, ar.div(ve * v, vb, what), ge, v * lb) if (gb or ge) else {}
+    return v, g
+
+
+def _function(ar, fname: str, x, gx: dict, what: str) -> Dual:
+    """Return fname(x) with its derivative times gx."""
+    v = ar.call(fname, x, what)
+    if not gx:
+        return v, {}
+    one = ar.const(Fraction(1))
+    if fname == "exp":
+        d = v
+    elif fname == "log":
+        d = ar.div(one, x, what)
+    elif fname == "sqrt":
+        if not ar.positive(v):
+            raise DomainError(what, "sqrt is not differentiable at 0")
+        d = ar.div(one, v + v, what)
+    elif fname == "sin":
+        d = ar.call("cos", x, what)
+    elif fname == "cos":
+        d = -ar.call("sin", x, what)
+    elif fname == "tan":
+        d = one + ar.ipow(v, 2, what)
+    elif fname == "tanh":
+        d = one - ar.ipow(v, 2, what)
+    elif fname == "sinh":
+        d = ar.call("cosh", x, what)
+    elif fname == "cosh":
+        d = ar.call("sinh", x, what)
+    else:  # atan
+        d = ar.div(one, one + ar.ipow(x, 2, what), what)
+    return v, _scale(gx, d)
+
+
+def evaluate(tape: Tape, ar, box: list, params: list, period: int = 1,
+             jacobian: bool = True) -> tuple[list, list[list] | None]:
+    """Return enclosures of g(box, params) (period-fold composed) and of its Jacobian in x.
+
+    box and params are lists of values of the arithmetic ar (intervals or points).
+    """
+    n = len(box)
+    duals: list[Dual] = [(x, {i: ar.const(Fraction(1))} if jacobian else {})
+                         for i, x in enumerate(box)]
+    with ar.active():
+        for _ in range(period):
+            duals = run(tape, ar, duals, params)
+        zero = ar.const(Fraction(0))
+        values = [v for v, _ in duals]
+        if not jacobian:
+            return values, None
+        jac = [[g.get(j, zero) for j in range(n)] for _, g in duals]
+    return values, jac

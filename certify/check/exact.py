@@ -1,0 +1,188 @@
+"""Exact rational linear algebra and polynomials: inertia, definiteness, spectra on the axis."""
+
+from __future__ import annotations
+
+from fractions import Fraction
+from math import lcm
+
+Matrix = list[list[Fraction]]
+Poly = list[Fraction]  # coefficients, constant term first
+
+
+def _integer_matrix(a: Matrix) -> list[list[int]]:
+    """Return a positive multiple of the rational matrix a with integer entries."""
+    d = 1
+    for row in a:
+        for q in row:
+            d = lcm(d, q.denominator)
+    return [[int(q * d) for q in row] for row in a]
+
+
+def leading_minor_signs(a: Matrix) -> list[int] | None:
+    """Return the signs of the leading principal minors of P a P^T for a symmetric pivot order.
+
+    Fraction-free Bareiss elimination; at each step a remaining index with a nonzero diagonal
+    entry is moved to the front (a symmetric permutation, which keeps the inertia). Returns None
+    when every remaining diagonal entry is zero (no 1x1 pivot exists).
+    """
+    m = _integer_matrix(a)
+    n, prev, signs = len(m), 1, []
+    for k in range(n):
+        piv = next((i for i in range(k, n) if m[i][i] != 0), None)
+        if piv is None:
+            return None
+        if piv != k:
+            m[k], m[piv] = m[piv], m[k]
+            for row in m:
+                row[k], row[piv] = row[piv], row[k]
+        pk = m[k][k]
+        for i in range(k + 1, n):
+            mi, mik = m[i], m[i][k]
+            for j in range(k + 1, n):
+                mi[j] = (mi[j] * pk - mik * m[k][j]) // prev
+        prev = pk
+        signs.append(1 if pk > 0 else -1)
+    return signs
+
+
+def inertia(a: Matrix) -> tuple[int, int] | None:
+    """Return (positive, negative) eigenvalue counts of a nonsingular symmetric matrix, or None.
+
+    Sylvester's law of inertia: the LDL^T pivots d_k / d_{k-1} (ratios of leading minors) have the
+    signs of the eigenvalue counts; a sign change between consecutive minors is a negative pivot.
+    """
+    signs = leading_minor_signs(a)
+    if signs is None:
+        return None
+    negative = sum(1 for s, t in zip([1] + signs, signs) if s != t)
+    return len(a) - negative, negative
+
+
+def is_positive_definite(a: Matrix) -> bool:
+    """Return whether the symmetric rational matrix a is positive definite (Sylvester's criterion)."""
+    m = _integer_matrix(a)
+    n, prev = len(m), 1
+    for k in range(n):
+        pk = m[k][k]
+        if pk <= 0:
+            return False
+        for i in range(k + 1, n):
+            mi, mik = m[i], m[i][k]
+            for j in range(k + 1, n):
+                mi[j] = (mi[j] * pk - mik * m[k][j]) // prev
+        prev = pk
+    return True
+
+
+def interval_positive_definite(lo: Matrix, hi: Matrix) -> bool:
+    """Return whether every symmetric matrix between lo and hi (entrywise) is positive definite.
+
+    With centre C and radius R: for symmetric M = C + D with |D| <= R, lambda_min(M) >=
+    lambda_min(C) - rho(R) (Weyl, and rho(D) <= rho(|D|) <= rho(R) by Perron-Frobenius), and
+    rho(R) <= max row sum of R. So C - sigma*I positive definite with sigma that row sum suffices
+    (the midpoint-radius test of Rohn 1994).
+    """
+    n = len(lo)
+    # Each matrix of the family is symmetric, so the upper entry (i, j) encloses both m_ij, m_ji.
+    up = [[(i, j) if i <= j else (j, i) for j in range(n)] for i in range(n)]
+    centre = [[(lo[a][b] + hi[a][b]) / 2 for a, b in row] for row in up]
+    radius = [[(hi[a][b] - lo[a][b]) / 2 for a, b in row] for row in up]
+    sigma = max(sum(row) for row in radius)
+    return is_positive_definite([[centre[i][j] - (sigma if i == j else 0) for j in range(n)]
+                                 for i in range(n)])
+
+
+def charpoly(a: Matrix) -> Poly:
+    """Return det(t I - a), constant term first (Faddeev-LeVerrier, exact over the rationals)."""
+    n = len(a)
+    coeffs = [Fraction(0)] * n + [Fraction(1)]
+    m = [[Fraction(0)] * n for _ in range(n)]
+    for k in range(1, n + 1):
+        for i in range(n):
+            m[i][i] += coeffs[n - k + 1]
+        am = [[sum(a[i][t] * m[t][j] for t in range(n)) for j in range(n)] for i in range(n)]
+        coeffs[n - k] = -sum(am[i][i] for i in range(n)) / k
+        m = am
+    return coeffs
+
+
+def _trim(p: Poly) -> Poly:
+    while p and p[-1] == 0:
+        p = p[:-1]
+    return p
+
+
+def _rem(a: Poly, b: Poly) -> Poly:
+    a = list(a)
+    while len(a) >= len(b) and a:
+        c = a[-1] / b[-1]
+        shift = len(a) - len(b)
+        for i, bi in enumerate(b):
+            a[shift + i] -= c * bi
+        a = _trim(a)
+    return a
+
+
+def _gcd(a: Poly, b: Poly) -> Poly:
+    a, b = _trim(a), _trim(b)
+    while b:
+        a, b = b, _rem(a, b)
+    return a
+
+
+def _sign_changes(values: list[Fraction]) -> int:
+    signs = [v > 0 for v in values if v != 0]
+    return sum(1 for s, t in zip(signs, signs[1:]) if s != t)
+
+
+def has_positive_root(p: Poly) -> bool:
+    """Return whether the nonzero rational polynomial p has a real root s > 0 (Sturm 1829)."""
+    p = _trim(p)
+    while len(p) > 1 and p[0] == 0:
+        p = p[1:]
+    if len(p) <= 1:
+        return False
+    seq = [p, _trim([i * c for i, c in enumerate(p)][1:])]
+    while len(seq[-1]) > 1:
+        r = _rem(seq[-2], seq[-1])
+        if not r:
+            break
+        seq.append([-c for c in r])
+    at_zero = _sign_changes([q[0] for q in seq])
+    at_infinity = _sign_changes([q[-1] for q in seq])
+    return at_zero - at_infinity > 0
+
+
+def imaginary_axis_root(p: Poly) -> str | None:
+    """Return how p has a root on the imaginary axis ('zero', 'imaginary pair'), or None.
+
+    p(i w) = A(w^2) + i w B(w^2); a root i w with w != 0 is a common root s = w^2 > 0 of A and B.
+    """
+    if p[0] == 0:
+        return "zero"
+    a = [c * (-1) ** (k // 2) for k, c in enumerate(p) if k % 2 == 0]
+    b = [c * (-1) ** (k // 2) for k, c in enumerate(p) if k % 2 == 1]
+    g = _gcd(a, b) if _trim(b) else _trim(a)
+    return "imaginary pair" if g and has_positive_root(g) else None
+
+
+def unit_circle_root(p: Poly) -> str | None:
+    """Return how p has a root of modulus 1 ('+1', '-1', 'complex pair'), or None.
+
+    The Cayley map lambda = (1 + s)/(1 - s) takes the imaginary axis onto the unit circle less -1;
+    q(s) = (1 - s)^n p((1 + s)/(1 - s)) has the matching roots.
+    """
+    if sum(p) == 0:
+        return "+1"
+    if sum(c * (-1) ** k for k, c in enumerate(p)) == 0:
+        return "-1"
+    n = len(p) - 1
+    q = [Fraction(0)] * (n + 1)
+    for k, c in enumerate(p):
+        term = [Fraction(1)]
+        for factor in [[1, 1]] * k + [[1, -1]] * (n - k):
+            term = [sum(term[i - j] * factor[j] for j in range(2) if 0 <= i - j < len(term))
+                    for i in range(len(term) + 1)]
+        for i, t in enumerate(term):
+            q[i] += c * t
+    return "complex pair" if imaginary_axis_root(_trim(q)) else None

@@ -1,0 +1,349 @@
+"""Find and certify one equilibrium (or fixed or periodic point) from a guess.
+
+Untrusted search: float Newton, epsilon-inflation (Rump), the Krawczyk test run through the
+checker's own code, a float inertia matrix, precision escalation and parameter bisection. The
+verdict is whatever the checker accepts on the finished certificate; everything else is
+undecided with a reason.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from fractions import Fraction
+
+import numpy as np
+
+from .. import __version__
+from ..check import exact
+from ..check.ad import evaluate
+from ..check.arith import ArbArithmetic, DomainError
+from ..check.certificate import (FORMAT, VERSION, CertificateRejected, Problem, Verified, check,
+                                 check_inertia, krawczyk_image)
+from ..model import Interval, Model
+from ..model.symbolic import FloatSystem
+from .inertia import dyadic, inertia_matrix, to_exact
+
+DEFAULT_PRECISION = 53
+DEFAULT_MAX_PRECISION = 424
+MIN_PIECE_FRACTION = Fraction(1, 2**16)  # smallest piece width, relative to the requested box
+MAX_PIECES = 256
+INFLATION_ROUNDS = 20
+
+
+class Undecided(Exception):
+    """The search could not produce a certificate: a reason word and a sentence for people."""
+
+    def __init__(self, reason: str, message: str):
+        self.reason, self.message = reason, message
+        super().__init__(f"{reason}: {message}")
+
+
+@dataclass
+class Attempt:
+    """The outcome for one guess: a checked certificate, or the reason there is none."""
+
+    guess: dict[str, float]
+    parameters: dict[str, Interval]
+    verdict: str = "undecided"
+    reason: str | None = None
+    message: str = ""
+    certificate: dict | None = None
+    verified: Verified | None = None
+    precision: int = DEFAULT_PRECISION
+    eigenvalues: list = field(default_factory=list)
+
+
+def problem_of(model: Model, period: int = 1) -> Problem:
+    """Return the checker's view of the model."""
+    return Problem(model.tape, model.kind, period, list(model.parameters), dict(model.parameters))
+
+
+# ---------------------------------------------------------------- floats (steering only)
+
+
+def float_residual(system: FloatSystem, kind: str, period: int,
+                   x: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Return f(x) and Df(x) in floats, with f = g^k - id for maps."""
+    if kind == "flow":
+        return system.g(x), system.dg(x)
+    y, jac = x, np.eye(len(x))
+    for _ in range(period):
+        jac = system.dg(y) @ jac
+        y = system.g(y)
+    return y - x, jac - np.eye(len(x))
+
+
+def newton(system: FloatSystem, kind: str, period: int, x0: np.ndarray,
+           iterations: int = 200) -> np.ndarray:
+    """Return a float approximation of a zero near x0, or raise Undecided(no-enclosure)."""
+    x = np.array(x0, dtype=float)
+    for _ in range(iterations):
+        fx, jx = float_residual(system, kind, period, x)
+        if not np.all(np.isfinite(fx)) or not np.all(np.isfinite(jx)):
+            raise Undecided("no-enclosure", "Newton's method left the domain of the model")
+        try:
+            step = np.linalg.lstsq(jx, fx, rcond=None)[0]
+        except np.linalg.LinAlgError:
+            raise Undecided("no-enclosure", "Newton's method met a singular Jacobian") from None
+        x = x - step
+        if np.linalg.norm(step) <= 1e-15 * (1 + np.linalg.norm(x)):
+            break
+    fx, _ = float_residual(system, kind, period, x)
+    if not np.all(np.isfinite(x)) or np.linalg.norm(fx) > 1e-6 * (1 + np.linalg.norm(x)):
+        raise Undecided("no-enclosure", "Newton's method did not converge from this guess")
+    return x
+
+
+# ---------------------------------------------------------------- one piece
+
+
+def _mid(ar, x) -> float:
+    lo, hi = ar.bounds(x)
+    return float((lo + hi) / 2)
+
+
+def _refine_centre(problem: Problem, ar, pbox, centre: list[Fraction],
+                   precond: list[list[Fraction]], rounds: int) -> list[Fraction]:
+    """Return the centre improved by simplified Newton steps with residuals at precision ar."""
+    p_iv = [ar.interval(lo, hi) for lo, hi in pbox]
+    bits = ar.prec + 8
+    for _ in range(rounds):
+        with ar.active():
+            fc, _ = evaluate(problem.tape, ar, [ar.const(c) for c in centre], p_iv,
+                             problem.period, False)
+            res = [(sum(ar.bounds(v)) / 2) - (c if problem.kind == "map" else 0)
+                   for v, c in zip(fc, centre)]
+        step = [sum(precond[i][t] * res[t] for t in range(len(res))) for i in range(len(res))]
+        centre = [_round(c - s, bits) for c, s in zip(centre, step)]
+    return centre
+
+
+def _round(q: Fraction, bits: int) -> Fraction:
+    """Return q rounded to a dyadic with `bits` bits after its leading bit."""
+    if q == 0:
+        return q
+    e = q.numerator.bit_length() - q.denominator.bit_length()
+    scale = Fraction(2) ** (bits - e)
+    return Fraction(round(q * scale)) / scale
+
+
+def certify_piece(problem: Problem, pbox: list[Interval], x: np.ndarray, prec: int) -> dict:
+    """Return a checked piece {parameters, centre, box, preconditioner, inertia_matrix}.
+
+    Raises Undecided(no-enclosure | near-axis | domain).
+    """
+    n = len(x)
+    ar = ArbArithmetic(prec)
+    centre = [Fraction(float(v)) for v in x]
+    try:
+        with ar.active():
+            p_iv = [ar.interval(lo, hi) for lo, hi in pbox]
+            _, jc = evaluate(problem.tape, ar, [ar.const(c) for c in centre], p_iv,
+                             problem.period)
+        jf = np.array([[_mid(ar, v) for v in row] for row in jc])
+    except DomainError as exc:
+        raise Undecided("domain", str(exc)) from None
+    if problem.kind == "map":
+        jf = jf - np.eye(n)
+    try:
+        c_float = np.linalg.inv(jf)
+    except np.linalg.LinAlgError:
+        raise Undecided("no-enclosure", "the Jacobian is singular at the approximate zero") \
+            from None
+    if not np.all(np.isfinite(c_float)):
+        raise Undecided("no-enclosure", "the Jacobian is singular at the approximate zero")
+    precond = to_exact(c_float)
+    if prec > 53:
+        centre = _refine_centre(problem, ar, pbox, centre, precond, 2 + prec // 53)
+    box, jac = _inflate(problem, ar, pbox, centre, precond)
+    jmid = np.array([[_mid(ar, v) for v in row] for row in jac])
+    s_float = inertia_matrix(jmid, problem.kind)
+    if s_float is None:
+        raise Undecided("near-axis", "no inertia matrix could be built (an eigenvalue is on "
+                        "or very near the axis)")
+    s = to_exact(s_float, 52)
+    for i in range(n):
+        for j in range(i):
+            s[i][j] = s[j][i]
+    counts = exact.inertia(s)
+    if counts is None:
+        raise Undecided("near-axis", "the inertia matrix is degenerate")
+    try:
+        with ar.active():
+            check_inertia(problem, ar, jac, s, counts[0], "piece")
+    except CertificateRejected as exc:
+        raise Undecided("near-axis", "hyperbolicity could not be proved over the enclosure "
+                        f"({exc.reason})") from None
+    return {"parameters": {p: [_q(lo), _q(hi)] for p, (lo, hi) in zip(problem.params, pbox)},
+            "centre": [_q(c) for c in centre],
+            "box": [[_q(lo), _q(hi)] for lo, hi in box],
+            "preconditioner": [[_q(v) for v in row] for row in precond],
+            "inertia_matrix": [[_q(v) for v in row] for row in s]}
+
+
+def _inflate(problem: Problem, ar, pbox, centre, precond):
+    """Return a box X with K(X, P) in its interior (epsilon-inflation, Rump 1980), and J(X, P)."""
+    n = len(centre)
+    tiny = Fraction(2) ** (-ar.prec - 20)
+    try:
+        with ar.active():
+            image, _ = krawczyk_image(problem, ar, pbox, centre, [(c, c) for c in centre],
+                                      precond)
+            radius = [max(abs(lo - c), abs(hi - c)) * 2 + abs(c) * Fraction(2) ** (-ar.prec + 2)
+                      + tiny for (lo, hi), c in ((ar.bounds(k), c) for k, c in
+                                                  zip(image, centre))]
+            for _ in range(INFLATION_ROUNDS):
+                box = [(c - r, c + r) for c, r in zip(centre, radius)]
+                image, jac = krawczyk_image(problem, ar, pbox, centre, box, precond)
+                kb = [ar.bounds(k) for k in image]
+                if all(b[0] < lo and hi < b[1] for b, (lo, hi) in zip(box, kb)):
+                    return box, jac
+                radius = [max(r, abs(lo - c), abs(hi - c)) * Fraction(3, 2) + tiny
+                          for r, c, (lo, hi) in zip(radius, centre, kb)]
+                if any(r > 1e6 * (1 + abs(c)) for r, c in zip(radius, centre)):
+                    break
+    except DomainError as exc:
+        raise Undecided("domain", str(exc)) from None
+    raise Undecided("no-enclosure", "the Krawczyk test did not succeed for any inflated box "
+                    "(the zero may be singular, e.g. a fold, or the box too wide)")
+
+
+def _q(q: Fraction) -> str:
+    return str(q.numerator) if q.denominator == 1 else f"{q.numerator}/{q.denominator}"
+
+
+# ---------------------------------------------------------------- one guess, all pieces
+
+
+def precisions(start: int, limit: int) -> list[int]:
+    """Return the precision ladder start, 2 start, 4 start, ... up to limit."""
+    out, p = [], start
+    while p <= limit:
+        out.append(p)
+        p *= 2
+    return out or [start]
+
+
+def certify_guess(model: Model, guess: dict[str, float], period: int = 1,
+                  precision: int = DEFAULT_PRECISION,
+                  max_precision: int = DEFAULT_MAX_PRECISION,
+                  max_pieces: int = MAX_PIECES) -> Attempt:
+    """Return the certified verdict for the equilibrium reached from one guess."""
+    attempt = Attempt(guess=dict(guess), parameters=dict(model.parameters))
+    problem = problem_of(model, period)
+    x0 = np.array([guess[v] for v in model.variables], dtype=float)
+    full = [model.parameters[p] for p in problem.params]
+    try:
+        pieces, used = _cover(model, problem, full, x0, precision, max_precision, max_pieces)
+    except Undecided as exc:
+        attempt.reason, attempt.message = exc.reason, exc.message
+        if all(lo == hi for lo, hi in full):
+            _try_not_hyperbolic(model, problem, x0, attempt)
+        return attempt
+    cert = certificate(model, period, used, {"verdict": "hyperbolic"}, pieces)
+    try:
+        verified = check(cert, "flint")
+    except CertificateRejected as exc:
+        attempt.reason, attempt.message = "precision-limit", f"the checker refused: {exc}"
+        return attempt
+    attempt.verdict, attempt.certificate, attempt.verified = "hyperbolic", cert, verified
+    attempt.precision = used
+    attempt.reason, attempt.message = None, ""
+    return attempt
+
+
+def certificate(model: Model, period: int, precision: int, claim: dict,
+                pieces: list[dict]) -> dict:
+    """Return the certificate document (proofs/FORMAT.md) for a claim."""
+    if claim["verdict"] == "hyperbolic" and pieces:
+        stable = exact.inertia([[_frac(v) for v in row]
+                                for row in pieces[0]["inertia_matrix"]])[0]
+        claim = {"verdict": "hyperbolic", "stable_dimension": stable,
+                 "unstable_dimension": model.dimension - stable}
+    cert = {"format": FORMAT, "version": VERSION, "tool": f"certify {__version__}",
+            "model": {"name": model.name, "kind": model.kind,
+                      "variables": list(model.variables),
+                      "parameters": {p: [_q(lo), _q(hi)] for p, (lo, hi) in
+                                     model.parameters.items()},
+                      "equations": dict(model.equations)},
+            "period": period, "precision": precision, "claim": claim}
+    if pieces:
+        cert["pieces"] = pieces
+    return cert
+
+
+def _cover(model, problem, full, x0, precision, max_precision, max_pieces):
+    """Return pieces covering the parameter box, bisecting where one proof does not suffice."""
+    ladder = precisions(precision, max_precision)
+    widths = [hi - lo for lo, hi in full]
+    todo = [(full, x0)]
+    pieces, used, stable = [], precision, None
+    while todo:
+        pbox, guess = todo.pop()
+        system = FloatSystem(model, dict(zip(problem.params, pbox)))
+        x = newton(system, model.kind, problem.period, guess)
+        failure = None
+        for prec in ladder:
+            try:
+                piece = certify_piece(problem, pbox, x, prec)
+                break
+            except Undecided as exc:
+                failure = exc
+                if exc.reason == "domain" and all(lo == hi for lo, hi in pbox):
+                    break
+        else:
+            piece = None
+        if piece is not None:
+            s = exact.inertia([[_frac(v) for v in row] for row in piece["inertia_matrix"]])[0]
+            if stable is not None and s != stable:
+                raise Undecided("near-axis", "pieces of the parameter box have different "
+                                "stable dimensions")
+            stable, used = s, max(used, prec)
+            pieces.append(piece)
+            continue
+        rel = [(hi - lo) / w if w else Fraction(0) for (lo, hi), w in zip(pbox, widths)]
+        k = max(range(len(rel)), key=lambda i: rel[i]) if rel else None
+        if k is None or rel[k] <= MIN_PIECE_FRACTION:
+            if any(lo != hi for lo, hi in pbox):
+                named = ", ".join(f"{p}=[{float(lo):.10g}, {float(hi):.10g}]"
+                                  for p, (lo, hi) in zip(problem.params, pbox) if lo != hi)
+                reason = "near-axis" if failure.reason == "near-axis" else "box-too-wide"
+                raise Undecided(reason, f"the piece {named} could not be certified "
+                                f"({failure.message})")
+            raise failure
+        if len(pieces) + len(todo) + 2 > max_pieces:
+            raise Undecided("budget", f"more than {max_pieces} pieces would be needed")
+        lo, hi = pbox[k]
+        mid = (lo + hi) / 2
+        todo.append((pbox[:k] + [(mid, hi)] + pbox[k + 1:], x))
+        todo.append((pbox[:k] + [(lo, mid)] + pbox[k + 1:], x))
+    return pieces, used
+
+
+def _frac(text: str) -> Fraction:
+    num, _, den = text.partition("/")
+    return Fraction(int(num), int(den or 1))
+
+
+def _try_not_hyperbolic(model: Model, problem: Problem, x0: np.ndarray, attempt: Attempt):
+    """Prove a zero is not hyperbolic when it is exactly rational (DESIGN §4.4)."""
+    system = FloatSystem(model)
+    try:
+        x = newton(system, model.kind, problem.period, x0, iterations=400)
+    except Undecided:
+        return
+    for bound in (1, 10, 100, 1000, 10**4, 10**6, 10**9):
+        point = [Fraction(float(v)).limit_denominator(bound) for v in x]
+        if any(abs(float(p) - float(v)) > 1e-7 * (1 + abs(v)) for p, v in zip(point, x)):
+            continue
+        claim = {"verdict": "not hyperbolic", "point": [_q(p) for p in point]}
+        cert = certificate(model, problem.period, DEFAULT_PRECISION, claim, [])
+        try:
+            verified = check(cert)
+        except CertificateRejected:
+            continue
+        attempt.verdict, attempt.reason = "not hyperbolic", None
+        axis = "imaginary axis" if model.kind == "flow" else "unit circle"
+        attempt.message = f"exact eigenvalue on the {axis} ({verified.claim['eigenvalue']})"
+        attempt.certificate, attempt.verified = cert, verified
+        return

@@ -1,0 +1,69 @@
+"""Build the symmetric matrix S of the inertia certificate in floating point (untrusted).
+
+Ordered real Schur form J = Q T Q^T with the stable block first, a Sylvester solve that splits
+T into diag(T11, T22), then one Lyapunov (flows) or Stein (maps) solve per block. The checker
+decides whether S works; this module only proposes it.
+"""
+
+from __future__ import annotations
+
+from fractions import Fraction
+import math
+
+import numpy as np
+import scipy.linalg as sla
+
+
+def dyadic(x: float, bits: int = 50) -> Fraction:
+    """Return x rounded to a dyadic rational with about `bits` significant bits."""
+    if x == 0 or not math.isfinite(x):
+        return Fraction(0)
+    m, e = math.frexp(x)
+    return Fraction(round(m * (1 << bits))) * Fraction(2) ** (e - bits)
+
+
+def to_exact(a: np.ndarray, bits: int = 50) -> list[list[Fraction]]:
+    """Return a float matrix as exact dyadic rationals, dropping entries negligible beside the rest."""
+    scale = float(np.max(np.abs(a))) if a.size else 0.0
+    return [[dyadic(float(v), bits) if abs(v) > 1e-40 * scale else Fraction(0) for v in row]
+            for row in a]
+
+
+def stable_count(j: np.ndarray, kind: str) -> int:
+    """Return the float estimate of the stable dimension of j."""
+    ev = np.linalg.eigvals(j)
+    return int(np.sum(ev.real < 0)) if kind == "flow" else int(np.sum(np.abs(ev) < 1))
+
+
+def inertia_matrix(j: np.ndarray, kind: str) -> np.ndarray | None:
+    """Return a symmetric S with -(J^T S + S J) > 0 (flows) or S - J^T S J > 0 (maps), or None."""
+    n = j.shape[0]
+    sort = "lhp" if kind == "flow" else "iuc"
+    try:
+        t, q, k = sla.schur(j, output="real", sort=sort)
+        t11, t12, t22 = t[:k, :k], t[:k, k:], t[k:, k:]
+        y = sla.solve_sylvester(t11, -t22, -t12) if 0 < k < n else np.zeros((k, n - k))
+        if kind == "flow":
+            p1 = sla.solve_continuous_lyapunov(t11.T, -np.eye(k)) if k else np.zeros((0, 0))
+            p2 = sla.solve_continuous_lyapunov(t22.T, np.eye(n - k)) if k < n else np.zeros((0, 0))
+        else:
+            p1 = sla.solve_discrete_lyapunov(t11.T, np.eye(k)) if k else np.zeros((0, 0))
+            p2 = (sla.solve_discrete_lyapunov(t22.T, -np.eye(n - k)) if k < n
+                  else np.zeros((0, 0)))
+    except (np.linalg.LinAlgError, ValueError):
+        return None
+    block = np.zeros((n, n))
+    block[:k, :k] = p1
+    block[k:, k:] = -p2
+    w = np.eye(n)
+    w[:k, k:] = y
+    v = q @ w
+    try:
+        vinv = np.linalg.inv(v)
+    except np.linalg.LinAlgError:
+        return None
+    s = vinv.T @ block @ vinv
+    s = (s + s.T) / 2
+    if not np.all(np.isfinite(s)):
+        return None
+    return s / np.max(np.abs(s))
