@@ -169,7 +169,8 @@ def _build(data: dict, source: str, line_of) -> Model:
         fail(f"at most {MAX_VARIABLES} variables are supported", None, "variables")
     for v in variables:
         if not isinstance(v, str) or not _IDENT.match(v) or v in _RESERVED:
-            fail(f"{v!r} is not a usable variable name", None, "variables")
+            fail(f"{v!r} cannot be a variable name (reserved or not an identifier)", None,
+                 "variables")
     if len(set(variables)) != len(variables):
         fail("a variable is listed twice", None, "variables")
 
@@ -179,7 +180,8 @@ def _build(data: dict, source: str, line_of) -> Model:
     parameters: dict[str, Interval] = {}
     for pname, raw in raw_params.items():
         if not _IDENT.match(pname) or pname in _RESERVED:
-            fail(f"{pname!r} is not a usable parameter name", "parameters", pname)
+            fail(f"{pname!r} cannot be a parameter name (reserved or not an identifier)",
+                 "parameters", pname)
         if pname in variables:
             fail(f"'{pname}' is both a variable and a parameter", "parameters", pname)
         try:

@@ -82,9 +82,9 @@ def newton(system: FloatSystem, kind: str, period: int, x0: np.ndarray,
         if not np.all(np.isfinite(fx)) or not np.all(np.isfinite(jx)):
             raise Undecided("no-enclosure", "Newton's method left the domain of the model")
         try:
-            step = np.linalg.lstsq(jx, fx, rcond=None)[0]
+            step = np.linalg.solve(jx, fx)
         except np.linalg.LinAlgError:
-            raise Undecided("no-enclosure", "Newton's method met a singular Jacobian") from None
+            step = np.linalg.lstsq(jx, fx, rcond=None)[0]
         x = x - step
         if np.linalg.norm(step) <= 1e-15 * (1 + np.linalg.norm(x)):
             break

@@ -9,6 +9,7 @@ from __future__ import annotations
 
 from fractions import Fraction
 import math
+import warnings
 
 import numpy as np
 import scipy.linalg as sla
@@ -37,6 +38,12 @@ def stable_count(j: np.ndarray, kind: str) -> int:
 
 def inertia_matrix(j: np.ndarray, kind: str) -> np.ndarray | None:
     """Return a symmetric S with -(J^T S + S J) > 0 (flows) or S - J^T S J > 0 (maps), or None."""
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        return _inertia_matrix(j, kind)
+
+
+def _inertia_matrix(j: np.ndarray, kind: str) -> np.ndarray | None:
     n = j.shape[0]
     sort = "lhp" if kind == "flow" else "iuc"
     try:

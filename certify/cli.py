@@ -1,0 +1,198 @@
+"""The certify command line: inspect, equilibrium, verify."""
+
+from __future__ import annotations
+
+import argparse
+import json
+import sys
+from fractions import Fraction
+from pathlib import Path
+
+from . import __version__
+from .errors import InputError
+
+CAUTION = ("A certificate is a statement about the mathematical model as written, at the stated "
+           "parameters, not about the physical system it stands for. In safety-relevant reviews "
+           "it supports, and does not replace, the judgement required by the applicable codes "
+           "and licensed practice.")
+
+EXAMPLES = """examples:
+  certify inspect examples/chemostat.toml
+  certify equilibrium examples/chemostat.toml --out chemostat.cert.json
+  certify equilibrium examples/chemostat.toml --set a=3.1..3.3 --guess u=2.9,v=0.35
+  certify equilibrium examples/seasonal-map.toml --period 2
+  certify verify chemostat-1.cert.json
+
+exit codes: 0 everything asked for is certified; 1 something is undecided, not hyperbolic or
+rejected; 2 the input is bad (the message says where and why)."""
+
+
+def _parser() -> argparse.ArgumentParser:
+    p = argparse.ArgumentParser(
+        prog="certify", formatter_class=argparse.RawDescriptionHelpFormatter,
+        description="Prove with interval arithmetic that equilibria of a model exist, are unique "
+                    "in a box and are hyperbolic, and re-check the certificates.",
+        epilog=EXAMPLES)
+    p.add_argument("--version", action="version", version=f"certify {__version__}")
+    sub = p.add_subparsers(dest="command", metavar="COMMAND")
+
+    def model_options(q):
+        q.add_argument("model", metavar="MODEL", help="model file (TOML)")
+        q.add_argument("--set", action="append", default=[], metavar="NAME=VALUE",
+                       help="override a parameter: NAME=VALUE (exact, e.g. 0.1 or 8/3) or "
+                            "NAME=LO..HI (every value in the interval); repeatable")
+        q.add_argument("--json", action="store_true", help="print one JSON object on stdout")
+
+    q = sub.add_parser("inspect", help="print the parsed model and its symbolic Jacobian")
+    model_options(q)
+
+    q = sub.add_parser("equilibrium", help="certify the equilibria reached from guesses",
+                       formatter_class=argparse.RawDescriptionHelpFormatter, epilog=EXAMPLES)
+    model_options(q)
+    q.add_argument("--guess", action="append", default=[], metavar="u=2.9,v=0.35",
+                   help="starting point for Newton's method; repeatable (default: the model's "
+                        "[[guesses]])")
+    q.add_argument("--period", type=int, default=1, metavar="K",
+                   help="maps only: certify points of period K (fixed points of g^K)")
+    q.add_argument("--precision", type=int, default=53, metavar="BITS",
+                   help="starting working precision in bits (default 53)")
+    q.add_argument("--max-precision", type=int, default=424, metavar="BITS",
+                   help="highest precision tried before answering undecided (default 424)")
+    q.add_argument("--out", metavar="CERT.json",
+                   help="write the certificate here (several results: CERT-1.json, ...)")
+
+    q = sub.add_parser("verify", help="re-check certificate files with the trusted checker")
+    q.add_argument("files", nargs="+", metavar="CERT.json")
+    q.add_argument("--arithmetic", choices=["flint"], default="flint",
+                   help="interval arithmetic for the check (default flint: python-flint's arb)")
+    q.add_argument("--json", action="store_true", help="print one JSON object on stdout")
+    return p
+
+
+def parse_assignments(items: list[str], option: str) -> dict[str, tuple[Fraction, Fraction]]:
+    """Return {name: (lo, hi)} from NAME=VALUE and NAME=LO..HI texts."""
+    from .model import parse_value
+
+    out = {}
+    for item in items:
+        name, eq, value = item.partition("=")
+        if not eq or not name.strip() or not value.strip():
+            raise InputError(f"expected NAME=VALUE or NAME=LO..HI, found {item!r}", None, option)
+        raw = value.split("..") if ".." in value else value
+        if isinstance(raw, list) and len(raw) != 2:
+            raise InputError(f"expected LO..HI, found {value!r}", None, option)
+        out[name.strip()] = parse_value(raw if isinstance(raw, str) else [r.strip() for r in raw],
+                                        None, f"{option} {name.strip()}")
+    return out
+
+
+def parse_guess(text: str) -> dict[str, float]:
+    """Return {variable: value} from 'u=2.9,v=0.35'."""
+    out = {}
+    for item in text.split(","):
+        assigned = parse_assignments([item], "--guess")
+        for name, (lo, hi) in assigned.items():
+            if lo != hi:
+                raise InputError(f"a guess is a single number, found an interval for {name}",
+                                 None, "--guess")
+            out[name] = float(lo)
+    return out
+
+
+def _load(args):
+    from .model import load_model
+
+    model = load_model(args.model)
+    overrides = parse_assignments(args.set, "--set")
+    return model.with_parameters(overrides) if overrides else model
+
+
+def main(argv: list[str] | None = None) -> int:
+    """Run the command line; return the exit code."""
+    parser = _parser()
+    args = parser.parse_args(argv)
+    if args.command is None:
+        parser.print_help()
+        return 2
+    try:
+        if args.command == "inspect":
+            return _inspect(args)
+        if args.command == "equilibrium":
+            return _equilibrium(args)
+        return _verify(args)
+    except InputError as exc:
+        print(f"certify: error: {exc}", file=sys.stderr)
+        return 2
+    except KeyboardInterrupt:
+        print("certify: interrupted", file=sys.stderr)
+        return 130
+
+
+def _inspect(args) -> int:
+    from .io import report
+
+    model = _load(args)
+    if args.json:
+        print(json.dumps(report.model_json(model), indent=1))
+    else:
+        report.print_model(model)
+    return 0
+
+
+def _equilibrium(args) -> int:
+    from .api import equilibrium, write_certificate
+    from .io import report
+
+    model = _load(args)
+    guesses = [parse_guess(g) for g in args.guess] or None
+    if args.precision < 30 or args.max_precision > 100_000:
+        raise InputError("precision must be between 30 and 100000 bits", None, "--precision")
+    if args.out and not Path(args.out).resolve().parent.is_dir():
+        raise InputError("the folder does not exist", args.out, "--out")
+    results = equilibrium(model, guesses, period=args.period, precision=args.precision,
+                          max_precision=max(args.max_precision, args.precision))
+    if args.out:
+        out = Path(args.out)
+        with_cert = [r for r in results if r.certificate is not None]
+        for k, r in enumerate(with_cert, 1):
+            path = out if len(with_cert) == 1 else out.with_name(
+                f"{out.name.removesuffix('.json').removesuffix('.cert')}-{k}"
+                f"{'.cert.json' if out.name.endswith('.cert.json') else '.json'}")
+            write_certificate(r.certificate, path)
+            r.certificate_path = str(path)
+    if args.json:
+        print(json.dumps(report.results_json(model, results), indent=1))
+    else:
+        report.print_results(model, results, CAUTION)
+    return 0 if all(r.verdict == "hyperbolic" for r in results) else 1
+
+
+def _verify(args) -> int:
+    from .api import verify
+    from .check import CertificateRejected
+    from .io import report
+
+    rows, ok = [], True
+    for name in args.files:
+        try:
+            verified = verify(name, args.arithmetic)
+            rows.append({"file": name, "status": "VERIFIED",
+                         "claim": report.claim_text(verified)})
+        except CertificateRejected as exc:
+            ok = False
+            rows.append({"file": name, "status": "REJECTED", "code": exc.code,
+                         "where": exc.where, "reason": exc.reason})
+    if args.json:
+        print(json.dumps({"arithmetic": args.arithmetic, "files": rows}, indent=1))
+    else:
+        for row in rows:
+            if row["status"] == "VERIFIED":
+                print(f"{row['file']}: VERIFIED ({row['claim']})")
+            else:
+                print(f"{row['file']}: REJECTED: {row['code']} at {row['where']}: "
+                      f"{row['reason']}")
+    return 0 if ok else 1
+
+
+if __name__ == "__main__":
+    sys.exit(main())

@@ -1,0 +1,164 @@
+"""What people and machines see: terminal tables and JSON for models and results."""
+
+from __future__ import annotations
+
+from fractions import Fraction
+
+from rich.console import Console
+from rich.table import Table
+
+from ..model import Model
+from .decimal import bounds_text, interval_text, value_text
+
+
+def _console() -> Console:
+    import shutil
+
+    return Console(highlight=False, width=max(100, shutil.get_terminal_size((100, 24)).columns))
+
+
+def model_json(model: Model) -> dict:
+    """Return the parsed model as JSON data (exact values as text)."""
+    from ..model.symbolic import jacobian_sympy
+
+    jac = jacobian_sympy(model)
+    return {"model": model.source, "name": model.name, "kind": model.kind,
+            "variables": list(model.variables),
+            "parameters": {p: [_q(lo), _q(hi)] for p, (lo, hi) in model.parameters.items()},
+            "equations": dict(model.equations),
+            "jacobian": [[str(jac[i, j]) for j in range(model.dimension)]
+                         for i in range(model.dimension)],
+            "guesses": list(model.guesses),
+            "region": ({v: [_q(lo), _q(hi)] for v, (lo, hi) in model.region.items()}
+                       if model.region else None)}
+
+
+def _q(q: Fraction) -> str:
+    return str(q.numerator) if q.denominator == 1 else f"{q.numerator}/{q.denominator}"
+
+
+def print_model(model: Model) -> None:
+    """Print the model: variables, exact parameters, equations, symbolic Jacobian."""
+    from ..model.symbolic import jacobian_sympy
+
+    con = _console()
+    what = "x' = f(x, p)" if model.kind == "flow" else "x -> g(x, p)"
+    con.print(f"[bold]{model.name}[/bold]  ({model.source})")
+    con.print(f"kind: {model.kind} ({what}); variables: {', '.join(model.variables)}")
+    table = Table(show_edge=False)
+    table.add_column("name")
+    table.add_column("value")
+    for p, (lo, hi) in model.parameters.items():
+        table.add_row(p, value_text(lo, hi))
+    if model.parameters:
+        con.print("[bold]parameters (exact)[/bold]")
+        con.print(table)
+    con.print("[bold]equations[/bold]")
+    table = Table(show_edge=False)
+    table.add_column("variable")
+    table.add_column("right-hand side" if model.kind == "flow" else "next value")
+    for v in model.variables:
+        lhs = f"{v}'" if model.kind == "flow" else f"{v} ->"
+        table.add_row(lhs, model.equations[v])
+    con.print(table)
+    jac = jacobian_sympy(model)
+    con.print("[bold]Jacobian (symbolic, exact)[/bold]")
+    table = Table(show_edge=False)
+    table.add_column("")
+    for v in model.variables:
+        table.add_column(f"d/d{v}")
+    for i, v in enumerate(model.variables):
+        table.add_row(v, *[str(jac[i, j]) for j in range(model.dimension)])
+    con.print(table)
+    if model.guesses:
+        con.print("guesses: " + "; ".join(", ".join(f"{k}={val:g}" for k, val in g.items())
+                                          for g in model.guesses))
+    if model.region:
+        con.print("region: " + ", ".join(f"{v} in {value_text(*model.region[v])}"
+                                         for v in model.variables))
+
+
+def verdict_text(r) -> str:
+    """Return the one-line verdict of a result."""
+    if r.verdict == "hyperbolic":
+        return (f"hyperbolic {r.type}: stable dimension {r.stable_dimension}, "
+                f"unstable dimension {r.unstable_dimension}")
+    if r.verdict == "not hyperbolic":
+        return f"not hyperbolic (proved): {r.message}"
+    return f"undecided ({r.reason}): {r.message}"
+
+
+def print_results(model: Model, results: list, caution: str) -> None:
+    """Print one table per result, then the caution."""
+    con = _console()
+    con.print(f"[bold]{model.name}[/bold]  ({model.source}), {model.kind} in "
+              f"{', '.join(model.variables)}")
+    if model.parameters:
+        con.print("parameters: " + ", ".join(f"{p} = {value_text(lo, hi)}"
+                                             for p, (lo, hi) in model.parameters.items()))
+    point = "periodic point" if results and results[0].period > 1 else (
+        "equilibrium" if model.kind == "flow" else "fixed point")
+    for k, r in enumerate(results, 1):
+        start = ", ".join(f"{v}={x:g}" for v, x in r.guess.items())
+        colour = {"hyperbolic": "green", "not hyperbolic": "yellow"}.get(r.verdict, "red")
+        con.print()
+        period = f" of period {r.period}" if r.period > 1 else ""
+        con.print(f"[bold]{point.capitalize()} {k}{period}[/bold] (Newton from {start})")
+        con.print(f"  [{colour}]{verdict_text(r)}[/{colour}]")
+        if r.enclosure:
+            table = Table(show_edge=False, box=None, padding=(0, 2))
+            table.add_column("  variable")
+            table.add_column("enclosure (rounded outward)")
+            for v in model.variables:
+                table.add_row(f"  {v}", interval_text(*r.enclosure[v]))
+            con.print(table)
+        if r.eigenvalues:
+            con.print("  eigenvalues (enclosures, for information; the verdict rests on the "
+                      "certificate):" if r.period == 1 and model.kind == "flow" else
+                      "  multipliers (enclosures, for information; the verdict rests on the "
+                      "certificate):")
+            for e in r.eigenvalues:
+                con.print(f"    {_complex_text(e)}")
+        if r.pieces > 1:
+            con.print(f"  proved for every parameter in the box, in {r.pieces} pieces")
+        if r.certificate_path:
+            con.print(f"  certificate: {r.certificate_path} (passed the checker; "
+                      f"re-check: certify verify {r.certificate_path})")
+    con.print()
+    con.print(f"[dim]{caution}[/dim]")
+
+
+def _complex_text(e: dict) -> str:
+    re, im = interval_text(*e["re"]), interval_text(*e["im"])
+    if e["im"][0] <= 0 <= e["im"][1]:
+        return re if e["im"][1] - e["im"][0] < 1e-6 else f"{re} + i{im}"
+    return f"{re} + i{im}"
+
+
+def results_json(model: Model, results: list) -> dict:
+    """Return the JSON result object of DESIGN §8."""
+    out = []
+    for r in results:
+        out.append({
+            "verdict": r.verdict, "reason": r.reason, "message": r.message or None,
+            "kind": r.kind, "period": r.period, "type": r.type,
+            "stable_dimension": r.stable_dimension, "unstable_dimension": r.unstable_dimension,
+            "parameters": {p: [_q(lo), _q(hi)] for p, (lo, hi) in r.parameters.items()},
+            "guess": r.guess,
+            "enclosure": ({v: list(bounds_text(*r.enclosure[v])) for v in model.variables}
+                          if r.enclosure else None),
+            "eigenvalues": [{"re": list(bounds_text(*e["re"])), "im": list(bounds_text(*e["im"]))}
+                            for e in r.eigenvalues],
+            "pieces": r.pieces, "precision": r.precision,
+            "certificate": r.certificate_path})
+    return {"model": model.source, "results": out}
+
+
+def claim_text(verified) -> str:
+    """Return a short description of what a verified certificate proves."""
+    c = verified.claim
+    if c["verdict"] == "hyperbolic":
+        n_p = f", {verified.pieces} pieces" if verified.pieces > 1 else ""
+        return (f"hyperbolic {verified.kind}, stable dimension {c['stable_dimension']}, "
+                f"unstable dimension {c['unstable_dimension']}{n_p}")
+    return f"not hyperbolic: exact eigenvalue on the axis ({c['eigenvalue']})"
