@@ -95,7 +95,7 @@ class ArbArithmetic:
         if n % 2 == 0:
             lo, hi = x.abs_lower(), x.abs_upper()
             low = arb(0) if lo == 0 else self._point_pow(lo, n)
-            return self._finite(low.union(self._point_pow(hi, n)), what)
+            return self._finite(low.union(self._point_pow(hi, n)).nonnegative_part(), what)
         lo, hi = x.lower(), x.upper()
         return self._finite(self._point_pow(lo, n).union(self._point_pow(hi, n)), what)
 
@@ -119,7 +119,7 @@ class ArbArithmetic:
                 raise DomainError(what, "sqrt of an interval reaching < 0")
             lo, hi = x.lower(), x.upper()
             low = self.flint.arb(0) if not lo > 0 else lo.sqrt()
-            return self._finite(low.union(hi.sqrt()), what)
+            return self._finite(low.union(hi.sqrt()).nonnegative_part(), what)
         if fname == "tan" and not (x.cos() > 0 or x.cos() < 0):
             raise DomainError(what, "tan of an interval reaching a pole")
         return self._finite(getattr(x, fname)(), what)

@@ -27,7 +27,13 @@ def to_sympy(tree: tuple, symbols: dict[str, sp.Symbol]) -> sp.Expr:
     if op == "call":
         return _SYMPY_FUNCTIONS[tree[1]](to_sympy(tree[2], symbols))
     a, b = to_sympy(tree[1], symbols), to_sympy(tree[2], symbols)
-    return {"add": a + b, "sub": a - b, "mul": a * b, "div": a / b, "pow": a**b}[op]
+    if op == "add":
+        return a + b
+    if op == "sub":
+        return a - b
+    if op == "mul":
+        return a * b
+    return a / b if op == "div" else a**b
 
 
 def symbols_of(model: Model) -> dict[str, sp.Symbol]:
