@@ -1,0 +1,106 @@
+"""Speed ratios against floating-point baselines run in the same process.
+
+    python benchmarks/run.py            all benchmarks
+    python benchmarks/run.py eval       interval f and J against numpy floats
+    python benchmarks/run.py certify    certified equilibria against float Newton + eigvals
+
+Targets (issues): certification of Lorenz C+ at most 10x float Newton + eigvals.
+"""
+
+from __future__ import annotations
+
+import sys
+import time
+from fractions import Fraction
+
+import numpy as np
+
+from certify import equilibrium, make_model
+from certify.check.ad import evaluate
+from certify.check.arith import ArbArithmetic
+from certify.model.symbolic import FloatSystem
+from certify.search.equilibrium import newton
+
+LORENZ = make_model(["x", "y", "z"], ["sigma*(y - x)", "rho*x - y - x*z", "x*y - beta*z"],
+                    {"sigma": 10, "beta": "8/3", "rho": 28})
+WITH_EXP = make_model(["u", "v", "w"], ["a*exp(-v) - u*w", "u**2 - b*exp(w/10)*v",
+                                        "tanh(u - v) - c*w"],
+                      {"a": "1.5", "b": "0.7", "c": 2})
+
+
+def per_call(fn, repeat: int) -> float:
+    """Return seconds per call of fn, best of three runs."""
+    best = float("inf")
+    for _ in range(3):
+        t = time.perf_counter()
+        for _ in range(repeat):
+            fn()
+        best = min(best, (time.perf_counter() - t) / repeat)
+    return best
+
+
+def bench_eval() -> None:
+    print("interval evaluation of f and J (one AD pass) vs numpy float f and J")
+    for name, model, point in [("Lorenz (polynomial)", LORENZ, [1.0, 2.0, 3.0]),
+                               ("3 variables with exp/tanh", WITH_EXP, [0.5, 0.4, 0.3])]:
+        ar = ArbArithmetic(53)
+        fs = FloatSystem(model)
+        x = np.array(point)
+        with ar.active():
+            box = [ar.interval(Fraction(v) - Fraction(1, 1000), Fraction(v) + Fraction(1, 1000))
+                   for v in point]
+            params = [ar.interval(*model.parameters[p]) for p in model.parameters]
+            t_iv = per_call(lambda: evaluate(model.tape, ar, box, params), 2000)
+        t_fl = per_call(lambda: (fs.g(x), fs.dg(x)), 2000)
+        print(f"  {name:28s} interval {t_iv * 1e6:8.1f} us   float {t_fl * 1e6:7.1f} us   "
+              f"ratio {t_iv / t_fl:6.1f}x")
+
+
+def random_system(n: int, seed: int = 1):
+    """Return x' = A (x - x0) + small quadratic terms, A = V D V^-1 with a known spectrum."""
+    rng = np.random.default_rng(seed)
+    d = np.diag(np.concatenate([-rng.uniform(0.5, 2, n - 3), rng.uniform(0.5, 2, 3)]))
+    v = np.eye(n) + rng.uniform(-0.3, 0.3, (n, n)) / np.sqrt(n)
+    a = v @ d @ np.linalg.inv(v)
+    names = [f"x{i}" for i in range(n)]
+    eqs = []
+    for i in range(n):
+        terms = [f"({Fraction(float(a[i, j])).limit_denominator(10**6)})*{names[j]}"
+                 for j in range(n)]
+        terms.append(f"(1/100)*{names[(i + 1) % n]}**2")
+        eqs.append(" + ".join(terms))
+    return make_model(names, eqs, {}), names
+
+
+def bench_certify() -> None:
+    print("certified equilibrium (search + in-process check) vs float Newton + numpy eigvals")
+    n30, names = random_system(30)
+    for name, model, guess in [("Lorenz C+ (n=3)", LORENZ, {"x": 8, "y": 8, "z": 27}),
+                               ("random system (n=30)", n30, {v: 0.01 for v in names})]:
+        fs = FloatSystem(model)
+        x0 = np.array([guess[v] for v in model.variables])
+
+        def baseline():
+            x = newton(fs, "flow", 1, x0)
+            return np.linalg.eigvals(fs.dg(x))
+
+        def certified():
+            r = equilibrium(model, [guess])[0]
+            assert r.verdict == "hyperbolic"
+            return r
+
+        reps = 20 if model.dimension < 10 else 2
+        t_fl = per_call(baseline, reps * 10)
+        t_ce = per_call(certified, reps)
+        r = certified()
+        print(f"  {name:24s} certified {t_ce * 1e3:9.2f} ms   float {t_fl * 1e3:7.3f} ms   "
+              f"ratio {t_ce / t_fl:7.1f}x   ({r.type}, unstable dimension "
+              f"{r.unstable_dimension})")
+
+
+if __name__ == "__main__":
+    which = sys.argv[1:] or ["eval", "certify"]
+    if "eval" in which:
+        bench_eval()
+    if "certify" in which:
+        bench_certify()
