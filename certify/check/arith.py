@@ -54,9 +54,10 @@ class ArbArithmetic:
             raise DomainError("?", "overflow or undefined value")
         m, e = x.mid().man_exp()
         r, f = x.rad().man_exp()
-        mid = Fraction(int(m)) * Fraction(2) ** int(e)
-        rad = Fraction(int(r)) * Fraction(2) ** int(f)
-        return mid - rad, mid + rad
+        m, e, r, f = int(m), int(e), int(r), int(f)
+        k = min(e, f, 0)  # common scale 2^k
+        mid, rad = m << (e - k), r << (f - k)
+        return Fraction(mid - rad, 1 << -k), Fraction(mid + rad, 1 << -k)
 
     def exact_integer(self, x) -> int | None:
         """Return x as an int when it is an exact integer, else None."""

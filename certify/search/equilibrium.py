@@ -98,8 +98,8 @@ def newton(system: FloatSystem, kind: str, period: int, x0: np.ndarray,
 
 
 def _mid(ar, x) -> float:
-    lo, hi = ar.bounds(x)
-    return float((lo + hi) / 2)
+    """Return the float nearest the midpoint of a ball (steering only)."""
+    return float(x.mid())
 
 
 def _refine_centre(problem: Problem, ar, pbox, centre: list[Fraction],
