@@ -10,8 +10,7 @@ from pathlib import Path
 from .check import CertificateRejected, Verified, check, load
 from .errors import InputError
 from .model import Interval, Model, load_model
-from .search.equilibrium import (DEFAULT_MAX_PRECISION, DEFAULT_PRECISION, Attempt,
-                                 certify_guess)
+from .search.equilibrium import DEFAULT_MAX_PRECISION, DEFAULT_PRECISION, Attempt, certify_guess
 
 TYPES = {"flow": ("sink", "source"), "map": ("attracting", "repelling")}
 

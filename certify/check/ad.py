@@ -61,7 +61,7 @@ def run(tape: Tape, ar, inputs: list[Dual], params: list) -> list[Dual]:
 
 
 def _power(ar, base: Dual, expo: Dual, what: str) -> Dual:
-    """Return base**expo: an integer power when the exponent is an exact integer, else exp(e log b)."""
+    """Return base**expo: an integer power for an exact integer exponent, else exp(e log b)."""
     vb, gb = base
     ve, ge = expo
     n = ar.exact_integer(ve) if not ge else None

@@ -7,9 +7,9 @@ its domain raises DomainError instead of returning nan; precision is fixed per i
 
 from __future__ import annotations
 
+from collections.abc import Iterator
 from contextlib import contextmanager
 from fractions import Fraction
-from typing import Iterator
 
 Bounds = tuple[Fraction, Fraction]
 

@@ -59,7 +59,7 @@ def inertia(a: Matrix) -> tuple[int, int] | None:
 
 
 def is_positive_definite(a: Matrix) -> bool:
-    """Return whether the symmetric rational matrix a is positive definite (Sylvester's criterion)."""
+    """Return whether the symmetric rational matrix a is positive definite (Sylvester)."""
     m = _integer_matrix(a)
     n, prev = len(m), 1
     for k in range(n):

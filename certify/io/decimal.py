@@ -36,7 +36,8 @@ def _text(n: int, k: int) -> str:
     if k <= 0:
         exponent = -k
         if len(digits) + exponent > 21:
-            return f"{sign}{digits[0]}.{digits[1:]}e+{len(digits) - 1 + exponent}".replace(".e", "e")
+            tail = digits[1:].rstrip("0")
+            return f"{sign}{digits[0]}{'.' + tail if tail else ''}e+{len(digits) - 1 + exponent}"
         return sign + digits + "0" * exponent
     if k >= len(digits) + 6:
         tail = digits[1:].rstrip("0")

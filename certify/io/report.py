@@ -122,9 +122,10 @@ def print_results(model: Model, results: list, caution: str) -> None:
         if r.pieces > 1:
             con.print(f"  proved for every parameter in the box, in {r.pieces} pieces")
         if r.certificate_path:
-            con.print(f"  certificate: {r.certificate_path} (passed the checker; "
-                      f"re-check: certify verify {r.certificate_path})")
+            con.print(f"  certificate: {r.certificate_path} (passed the checker)")
     con.print()
+    if any(r.certificate_path for r in results):
+        con.print("Re-check the certificates independently with: certify verify FILE ...")
     con.print(f"[dim]{caution}[/dim]")
 
 
@@ -159,6 +160,11 @@ def claim_text(verified) -> str:
     c = verified.claim
     if c["verdict"] == "hyperbolic":
         n_p = f", {verified.pieces} pieces" if verified.pieces > 1 else ""
-        return (f"hyperbolic {verified.kind}, stable dimension {c['stable_dimension']}, "
-                f"unstable dimension {c['unstable_dimension']}{n_p}")
+        stable_word, unstable_word = {"flow": ("sink", "source"),
+                                      "map": ("attracting", "repelling")}[verified.kind]
+        word = (stable_word if c["unstable_dimension"] == 0 else
+                unstable_word if c["stable_dimension"] == 0 else "saddle")
+        box = ", ".join(f"{p}={value_text(lo, hi)}" for p, (lo, hi) in verified.parameters.items())
+        return (f"hyperbolic {word}, stable dimension {c['stable_dimension']}, "
+                f"unstable dimension {c['unstable_dimension']}{n_p}; {box}")
     return f"not hyperbolic: exact eigenvalue on the axis ({c['eigenvalue']})"

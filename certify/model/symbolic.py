@@ -57,7 +57,8 @@ def jacobian_sympy(model: Model) -> sp.Matrix:
 class FloatSystem:
     """Float functions g(x), Dg(x) at fixed parameter values (the midpoints of their intervals)."""
 
-    def __init__(self, model: Model, parameters: dict[str, tuple[Fraction, Fraction]] | None = None):
+    def __init__(self, model: Model,
+                 parameters: dict[str, tuple[Fraction, Fraction]] | None = None):
         params = parameters or model.parameters
         self.model = model
         self.point = {k: float((lo + hi) / 2) for k, (lo, hi) in params.items()}

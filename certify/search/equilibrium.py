@@ -17,11 +17,19 @@ from .. import __version__
 from ..check import exact
 from ..check.ad import evaluate
 from ..check.arith import ArbArithmetic, DomainError
-from ..check.certificate import (FORMAT, VERSION, CertificateRejected, Problem, Verified, check,
-                                 check_inertia, krawczyk_image)
+from ..check.certificate import (
+    FORMAT,
+    VERSION,
+    CertificateRejected,
+    Problem,
+    Verified,
+    check,
+    check_inertia,
+    krawczyk_image,
+)
 from ..model import Interval, Model
 from ..model.symbolic import FloatSystem
-from .inertia import dyadic, inertia_matrix, to_exact
+from .inertia import inertia_matrix, to_exact
 
 DEFAULT_PRECISION = 53
 DEFAULT_MAX_PRECISION = 424
@@ -183,7 +191,6 @@ def certify_piece(problem: Problem, pbox: list[Interval], x: np.ndarray, prec: i
 
 def _inflate(problem: Problem, ar, pbox, centre, precond):
     """Return a box X with K(X, P) in its interior (epsilon-inflation, Rump 1980), and J(X, P)."""
-    n = len(centre)
     tiny = Fraction(2) ** (-ar.prec - 20)
     try:
         with ar.active():

@@ -7,9 +7,9 @@ decides whether S works; this module only proposes it.
 
 from __future__ import annotations
 
-from fractions import Fraction
 import math
 import warnings
+from fractions import Fraction
 
 import numpy as np
 import scipy.linalg as sla
@@ -24,7 +24,7 @@ def dyadic(x: float, bits: int = 50) -> Fraction:
 
 
 def to_exact(a: np.ndarray, bits: int = 50) -> list[list[Fraction]]:
-    """Return a float matrix as exact dyadic rationals, dropping entries negligible beside the rest."""
+    """Return a float matrix as exact dyadics, dropping entries negligible beside the rest."""
     scale = float(np.max(np.abs(a))) if a.size else 0.0
     return [[dyadic(float(v), bits) if abs(v) > 1e-40 * scale else Fraction(0) for v in row]
             for row in a]
