@@ -205,6 +205,11 @@ def _inflate(problem: Problem, ar, pbox, centre, precond):
                 kb = [ar.bounds(k) for k in image]
                 if all(b[0] < lo and hi < b[1] for b, (lo, hi) in zip(box, kb)):
                     return box, jac
+                if any(hi < b[0] or lo > b[1] for b, (lo, hi) in zip(box, kb)):
+                    # Krawczyk 1969: every zero in X lies in K(X, P); K misses X, so none does.
+                    shown = ", ".join(f"[{float(lo):.6g}, {float(hi):.6g}]" for lo, hi in box)
+                    raise Undecided("no-enclosure", "the Krawczyk image misses the box, which "
+                                    f"proves there is no equilibrium in {shown}")
                 radius = [max(r, abs(lo - c), abs(hi - c)) * Fraction(3, 2) + tiny
                           for r, c, (lo, hi) in zip(radius, centre, kb)]
                 if any(r > 1e6 * (1 + abs(c)) for r, c in zip(radius, centre)):

@@ -1,0 +1,75 @@
+"""The trusted kernel stays small, self-contained, and refuses hostile files quickly."""
+
+from __future__ import annotations
+
+import ast
+import json
+import sys
+import time
+from pathlib import Path
+
+import pytest
+
+from certify.check import CertificateRejected, check, load
+
+KERNEL = Path(__file__).resolve().parent.parent / "certify" / "check"
+ALLOWED = (set(sys.stdlib_module_names) | {"flint"}) - {"ctypes", "subprocess", "os", "pickle",
+                                                      "marshal", "importlib", "socket"}
+LINE_BUDGET = 1500  # non-blank, non-comment lines (DESIGN §2: well under 1,500)
+
+
+def test_kernel_imports_only_the_standard_library_and_flint():
+    for path in KERNEL.glob("*.py"):
+        for node in ast.walk(ast.parse(path.read_text())):
+            if isinstance(node, ast.Import):
+                names = [a.name.split(".")[0] for a in node.names]
+            elif isinstance(node, ast.ImportFrom):
+                if node.level:  # relative: must stay inside certify/check
+                    assert node.level == 1, f"{path.name} imports from outside the kernel"
+                    continue
+                names = [node.module.split(".")[0]]
+            else:
+                continue
+            assert set(names) <= ALLOWED, f"{path.name} imports {names}"
+
+
+def test_kernel_line_budget():
+    lines = 0
+    for path in KERNEL.glob("*.py"):
+        lines += sum(1 for line in path.read_text().splitlines()
+                     if line.strip() and not line.strip().startswith("#"))
+    assert lines < LINE_BUDGET, lines
+
+
+def test_kernel_never_uses_assert_for_checks():
+    for path in KERNEL.glob("*.py"):
+        tree = ast.parse(path.read_text())
+        assert not any(isinstance(n, ast.Assert) for n in ast.walk(tree)), path.name
+
+
+@pytest.mark.parametrize("text", [
+    "not json at all",
+    "[" * 100_000 + "]" * 100_000,
+    json.dumps({"format": "certify-certificate", "version": 1, "x": list(range(10**6))}),
+    '{"format": "certify-certificate", "version": 1, "precision": 1' + "0" * 10**6 + "}",
+    json.dumps({"format": "certify-certificate", "version": 1, "precision": 53,
+                "claim": {"verdict": "hyperbolic"},
+                "model": {"kind": "flow", "variables": [f"x{i}" for i in range(10**5)],
+                          "parameters": {}, "equations": {}}}),
+    json.dumps({"format": "certify-certificate", "version": 1, "precision": 53,
+                "claim": {"verdict": "hyperbolic", "stable_dimension": 1,
+                          "unstable_dimension": 0},
+                "model": {"kind": "flow", "variables": ["x"], "parameters": {},
+                          "equations": {"x": "__import__('os').system('echo hacked')"}}}),
+    json.dumps({"format": "certify-certificate", "version": 1, "precision": 53,
+                "claim": {"verdict": "hyperbolic", "stable_dimension": 1,
+                          "unstable_dimension": 0},
+                "model": {"kind": "flow", "variables": ["x"], "parameters": {},
+                          "equations": {"x": "10**10**10"}}}),
+    json.dumps({"format": "certify-certificate", "version": 7}),
+])
+def test_hostile_files_are_rejected_quickly(text):
+    start = time.perf_counter()
+    with pytest.raises(CertificateRejected):
+        check(load(text))
+    assert time.perf_counter() - start < 5
