@@ -55,6 +55,11 @@ class Verified:
 # ---------------------------------------------------------------- reading the file
 
 
+def rational_text(q: Fraction) -> str:
+    """Return q as the certificate writes exact numbers: "p" or "p/q"."""
+    return str(q.numerator) if q.denominator == 1 else f"{q.numerator}/{q.denominator}"
+
+
 def _rational(v, where: str) -> Fraction:
     """Return the exact rational written as "p", "-p" or "p/q"."""
     if isinstance(v, bool) or not isinstance(v, (str, int)):

@@ -2,11 +2,11 @@
 
 from __future__ import annotations
 
-from fractions import Fraction
 
 from rich.console import Console
 from rich.table import Table
 
+from ..check.certificate import rational_text as _q
 from ..model import Model
 from .decimal import bounds_text, interval_text, value_text
 
@@ -31,10 +31,6 @@ def model_json(model: Model) -> dict:
             "guesses": list(model.guesses),
             "region": ({v: [_q(lo), _q(hi)] for v, (lo, hi) in model.region.items()}
                        if model.region else None)}
-
-
-def _q(q: Fraction) -> str:
-    return str(q.numerator) if q.denominator == 1 else f"{q.numerator}/{q.denominator}"
 
 
 def print_model(model: Model) -> None:

@@ -26,6 +26,7 @@ from ..check.certificate import (
     check,
     check_inertia,
     krawczyk_image,
+    rational_text,
 )
 from ..model import Interval, Model
 from ..model.symbolic import FloatSystem
@@ -182,11 +183,12 @@ def certify_piece(problem: Problem, pbox: list[Interval], x: np.ndarray, prec: i
     except CertificateRejected as exc:
         raise Undecided("near-axis", "hyperbolicity could not be proved over the enclosure "
                         f"({exc.reason})") from None
-    return {"parameters": {p: [_q(lo), _q(hi)] for p, (lo, hi) in zip(problem.params, pbox)},
-            "centre": [_q(c) for c in centre],
-            "box": [[_q(lo), _q(hi)] for lo, hi in box],
-            "preconditioner": [[_q(v) for v in row] for row in precond],
-            "inertia_matrix": [[_q(v) for v in row] for row in s]}
+    return {"parameters": {p: [rational_text(lo), rational_text(hi)]
+                           for p, (lo, hi) in zip(problem.params, pbox)},
+            "centre": [rational_text(c) for c in centre],
+            "box": [[rational_text(lo), rational_text(hi)] for lo, hi in box],
+            "preconditioner": [[rational_text(v) for v in row] for row in precond],
+            "inertia_matrix": [[rational_text(v) for v in row] for row in s]}
 
 
 def _inflate(problem: Problem, ar, pbox, centre, precond):
@@ -218,10 +220,6 @@ def _inflate(problem: Problem, ar, pbox, centre, precond):
         raise Undecided("domain", str(exc)) from None
     raise Undecided("no-enclosure", "the Krawczyk test did not succeed for any inflated box "
                     "(the zero may be singular, e.g. a fold, or the box too wide)")
-
-
-def _q(q: Fraction) -> str:
-    return str(q.numerator) if q.denominator == 1 else f"{q.numerator}/{q.denominator}"
 
 
 # ---------------------------------------------------------------- one guess, all pieces
@@ -268,14 +266,14 @@ def certificate(model: Model, period: int, precision: int, claim: dict,
                 pieces: list[dict]) -> dict:
     """Return the certificate document (proofs/FORMAT.md) for a claim."""
     if claim["verdict"] == "hyperbolic" and pieces:
-        stable = exact.inertia([[_frac(v) for v in row]
+        stable = exact.inertia([[Fraction(v) for v in row]
                                 for row in pieces[0]["inertia_matrix"]])[0]
         claim = {"verdict": "hyperbolic", "stable_dimension": stable,
                  "unstable_dimension": model.dimension - stable}
     cert = {"format": FORMAT, "version": VERSION, "tool": f"certify {__version__}",
             "model": {"name": model.name, "kind": model.kind,
                       "variables": list(model.variables),
-                      "parameters": {p: [_q(lo), _q(hi)] for p, (lo, hi) in
+                      "parameters": {p: [rational_text(lo), rational_text(hi)] for p, (lo, hi) in
                                      model.parameters.items()},
                       "equations": dict(model.equations)},
             "period": period, "precision": precision, "claim": claim}
@@ -306,7 +304,7 @@ def _cover(model, problem, full, x0, precision, max_precision, max_pieces):
         else:
             piece = None
         if piece is not None:
-            s = exact.inertia([[_frac(v) for v in row] for row in piece["inertia_matrix"]])[0]
+            s = exact.inertia([[Fraction(v) for v in row] for row in piece["inertia_matrix"]])[0]
             if stable is not None and s != stable:
                 raise Undecided("near-axis", "pieces of the parameter box have different "
                                 "stable dimensions")
@@ -332,11 +330,6 @@ def _cover(model, problem, full, x0, precision, max_precision, max_pieces):
     return pieces, used
 
 
-def _frac(text: str) -> Fraction:
-    num, _, den = text.partition("/")
-    return Fraction(int(num), int(den or 1))
-
-
 def _try_not_hyperbolic(model: Model, problem: Problem, x0: np.ndarray, attempt: Attempt):
     """Prove a zero is not hyperbolic when it is exactly rational (DESIGN §4.4)."""
     system = FloatSystem(model)
@@ -348,7 +341,7 @@ def _try_not_hyperbolic(model: Model, problem: Problem, x0: np.ndarray, attempt:
         point = [Fraction(float(v)).limit_denominator(bound) for v in x]
         if any(abs(float(p) - float(v)) > 1e-7 * (1 + abs(v)) for p, v in zip(point, x)):
             continue
-        claim = {"verdict": "not hyperbolic", "point": [_q(p) for p in point]}
+        claim = {"verdict": "not hyperbolic", "point": [rational_text(p) for p in point]}
         cert = certificate(model, problem.period, DEFAULT_PRECISION, claim, [])
         try:
             verified = check(cert)
