@@ -60,7 +60,11 @@ def inertia(a: Matrix) -> tuple[int, int] | None:
 
 def is_positive_definite(a: Matrix) -> bool:
     """Return whether the symmetric rational matrix a is positive definite (Sylvester)."""
-    m = _integer_matrix(a)
+    return _integer_positive_definite(_integer_matrix(a))
+
+
+def _integer_positive_definite(m: list[list[int]]) -> bool:
+    """Return whether all leading principal minors of the integer matrix m are > 0 (Bareiss)."""
     n, prev = len(m), 1
     for k in range(n):
         pk = m[k][k]
@@ -80,16 +84,22 @@ def interval_positive_definite(lo: Matrix, hi: Matrix) -> bool:
     With centre C and radius R: for symmetric M = C + D with |D| <= R, lambda_min(M) >=
     lambda_min(C) - rho(R) (Weyl, and rho(D) <= rho(|D|) <= rho(R) by Perron-Frobenius), and
     rho(R) <= max row sum of R. So C - sigma*I positive definite with sigma that row sum suffices
-    (the midpoint-radius test of Rohn 1994).
+    (the midpoint-radius test of Rohn 1994). Everything is scaled by 2d, d a common denominator,
+    so the test runs on integers: 2d C = d(lo + hi), 2d R = d(hi - lo).
     """
     n = len(lo)
     # Each matrix of the family is symmetric, so the upper entry (i, j) encloses both m_ij, m_ji.
-    up = [[(i, j) if i <= j else (j, i) for j in range(n)] for i in range(n)]
-    centre = [[(lo[a][b] + hi[a][b]) / 2 for a, b in row] for row in up]
-    radius = [[(hi[a][b] - lo[a][b]) / 2 for a, b in row] for row in up]
-    sigma = max(sum(row) for row in radius)
-    return is_positive_definite([[centre[i][j] - (sigma if i == j else 0) for j in range(n)]
-                                 for i in range(n)])
+    up = [(i, j) for i in range(n) for j in range(i, n)]
+    d = 1
+    for i, j in up:
+        d = lcm(d, lo[i][j].denominator, hi[i][j].denominator)
+    low = {(i, j): lo[i][j].numerator * (d // lo[i][j].denominator) for i, j in up}
+    high = {(i, j): hi[i][j].numerator * (d // hi[i][j].denominator) for i, j in up}
+    key = [[(i, j) if i <= j else (j, i) for j in range(n)] for i in range(n)]
+    centre = [[low[k] + high[k] for k in row] for row in key]
+    sigma = max(sum(high[k] - low[k] for k in row) for row in key)
+    return _integer_positive_definite([[c - (sigma if i == j else 0) for j, c in enumerate(row)]
+                                       for i, row in enumerate(centre)])
 
 
 def charpoly(a: Matrix) -> Poly:

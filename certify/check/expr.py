@@ -72,14 +72,14 @@ def _walk(node: ast.AST, src: str, names: frozenset[str], depth: int) -> tuple:
     """Return the tree for one checked ast node."""
     if depth > MAX_DEPTH:
         raise ExpressionError(f"nesting deeper than {MAX_DEPTH}")
-    seg = (ast.get_source_segment(src, node) or type(node).__name__)[:40]
+    seg = (_segment(src, node) or type(node).__name__)[:40]
     col = getattr(node, "col_offset", -1) + 1
     down = depth + 1
     if isinstance(node, ast.Constant):
         if isinstance(node.value, bool) or not isinstance(node.value, (int, float)):
             raise ExpressionError("only numbers, declared names and whitelisted functions "
                                   "are allowed", seg, col)
-        return ("num", parse_number(ast.get_source_segment(src, node) or ""))
+        return ("num", parse_number(_segment(src, node)))
     if isinstance(node, ast.Name):
         if node.id in names:
             return ("name", node.id)
@@ -118,17 +118,24 @@ def _walk(node: ast.AST, src: str, names: frozenset[str], depth: int) -> tuple:
                           "+ - * / **, and " + ", ".join(FUNCTIONS) + ")", seg, col)
 
 
+def _segment(src: str, node: ast.AST) -> str:
+    """Return the source text of a node (a slice for one-line ASCII text, the common case)."""
+    if src.isascii() and "\n" not in src:
+        return src[node.col_offset:node.end_col_offset]
+    return ast.get_source_segment(src, node) or ""
+
+
 def _check_exponent(node: ast.AST, src: str) -> None:
     """Refuse power towers and integer exponents above the cap, before anything is computed."""
     for sub in ast.walk(node):
         if isinstance(sub, ast.BinOp) and isinstance(sub.op, ast.Pow):
             raise ExpressionError("an exponent may not itself contain **",
-                                  (ast.get_source_segment(src, sub) or "**")[:40],
+                                  (_segment(src, sub) or "**")[:40],
                                   sub.col_offset + 1)
         if isinstance(sub, ast.Constant) and isinstance(sub.value, (int, float)):
-            if abs(parse_number(ast.get_source_segment(src, sub) or "0")) > MAX_INT_EXPONENT:
+            if abs(parse_number(_segment(src, sub) or "0")) > MAX_INT_EXPONENT:
                 raise ExpressionError(f"an exponent may be at most {MAX_INT_EXPONENT} in size",
-                                      ast.get_source_segment(src, sub) or "", sub.col_offset + 1)
+                                      _segment(src, sub) or "", sub.col_offset + 1)
 
 
 def unparse(tree: tuple) -> str:
