@@ -50,8 +50,13 @@ class EquilibriumResult:
 def equilibrium(model: Model | str | Path, guesses: list[dict[str, float]] | None = None,
                 parameters: dict[str, Interval] | None = None, period: int = 1,
                 precision: int = DEFAULT_PRECISION,
-                max_precision: int = DEFAULT_MAX_PRECISION) -> list[EquilibriumResult]:
-    """Return one result per guess: a verdict proved by the checker, or undecided with a reason."""
+                max_precision: int = DEFAULT_MAX_PRECISION,
+                arithmetics: tuple[str, ...] = ("flint",)) -> list[EquilibriumResult]:
+    """Return one result per guess: a verdict proved by the checker, or undecided with a reason.
+
+    arithmetics: the checker's arithmetics every verdict must pass in-process ("flint", the
+    fast one, by default; add "python" for the independent standard-library one).
+    """
     if not isinstance(model, Model):
         model = load_model(model)
     if parameters:
@@ -71,8 +76,8 @@ def equilibrium(model: Model | str | Path, guesses: list[dict[str, float]] | Non
             what = f"no value for {', '.join(missing)}" if missing else \
                 f"'{extra[0]}' is not a variable"
             raise InputError(what, model.source, "--guess")
-    return [_result(model, certify_guess(model, g, period, precision, max_precision), period)
-            for g in guesses]
+    return [_result(model, certify_guess(model, g, period, precision, max_precision,
+                                         arithmetics=arithmetics), period) for g in guesses]
 
 
 def _result(model: Model, attempt: Attempt, period: int) -> EquilibriumResult:
@@ -123,15 +128,28 @@ def _eigenvalues(model: Model, cert: dict, period: int) -> list[dict]:
     return sorted(out, key=lambda e: (e["re"][0], e["im"][0]))
 
 
-def verify(source: str | Path | dict, arithmetic: str = "flint") -> Verified:
-    """Return what a certificate proves, or raise CertificateRejected; source is a path or dict."""
+ARITHMETICS = {"flint": ("flint",), "python": ("python",), "both": ("flint", "python")}
+
+
+def verify(source: str | Path | dict, arithmetic: str = "both") -> Verified:
+    """Return what a certificate proves, or raise CertificateRejected; source is a path or dict.
+
+    arithmetic: "flint" (python-flint balls), "python" (standard-library dyadic intervals) or
+    "both" (the default): the file is accepted only if every selected arithmetic accepts it.
+    """
+    if arithmetic not in ARITHMETICS:
+        raise CertificateRejected("malformed", "arithmetic", f"unknown arithmetic {arithmetic!r}")
     if isinstance(source, dict):
-        return check(source, arithmetic)
-    try:
-        text = Path(source).read_bytes()
-    except OSError as exc:
-        raise CertificateRejected("malformed", "file", f"cannot read ({exc.strerror})") from None
-    return check(load(text), arithmetic)
+        data = source
+    else:
+        try:
+            data = load(Path(source).read_bytes())
+        except OSError as exc:
+            raise CertificateRejected("malformed", "file",
+                                      f"cannot read ({exc.strerror})") from None
+    for name in ARITHMETICS[arithmetic]:
+        verified = check(data, name)
+    return verified
 
 
 def write_certificate(cert: dict, path: str | Path) -> None:

@@ -63,8 +63,10 @@ def _parser() -> argparse.ArgumentParser:
 
     q = sub.add_parser("verify", help="re-check certificate files with the trusted checker")
     q.add_argument("files", nargs="+", metavar="CERT.json")
-    q.add_argument("--arithmetic", choices=["flint"], default="flint",
-                   help="interval arithmetic for the check (default flint: python-flint's arb)")
+    q.add_argument("--arithmetic", choices=["flint", "python", "both"], default="both",
+                   help="interval arithmetic of the check: flint (python-flint balls), python "
+                        "(our standard-library dyadic intervals) or both (default; a file is "
+                        "VERIFIED only if every selected arithmetic accepts it)")
     q.add_argument("--json", action="store_true", help="print one JSON object on stdout")
     return p
 
@@ -150,7 +152,8 @@ def _equilibrium(args) -> int:
     if args.out and not Path(args.out).resolve().parent.is_dir():
         raise InputError("the folder does not exist", args.out, "--out")
     results = equilibrium(model, guesses, period=args.period, precision=args.precision,
-                          max_precision=max(args.max_precision, args.precision))
+                          max_precision=max(args.max_precision, args.precision),
+                          arithmetics=("flint", "python") if args.out else ("flint",))
     if args.out:
         out = Path(args.out)
         with_cert = [r for r in results if r.certificate is not None]
