@@ -288,10 +288,11 @@ class DyadicArithmetic:
         return self._constants[key]
 
     def _log(self, x: Dyadic, what: str) -> Dyadic:
-        """log at a point m 2^e: y = m 2^-b in [3/4, 3/2), log x = 2 atanh((y-1)/(y+1)) + K log 2."""
+        """log at a point m 2^e: with y = m 2^-b in [3/4, 3/2),
+        log x = 2 atanh((y - 1)/(y + 1)) + (e + b) log 2."""
         m, e = x.lo
         b = m.bit_length()
-        if m < 3 << (b - 2) if b >= 2 else False:
+        if 4 * m < 3 << b:  # m 2^-b < 3/4: use twice that, in [1, 3/2)
             b -= 1
         k = e + b
         w = x.p + GUARD + k.bit_length()

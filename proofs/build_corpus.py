@@ -1,0 +1,157 @@
+"""Rebuild the certificate corpora: proofs/valid/ (must verify) and proofs/invalid/ (must not).
+
+    python proofs/build_corpus.py
+
+Valid files certify every bundled example and the published cases used as check values in the
+tests; invalid files are tampered copies and malformed files, each listed in
+proofs/invalid/MANIFEST.json with the rejection code the checker must give.
+"""
+
+from __future__ import annotations
+
+import copy
+import json
+import sys
+from fractions import Fraction
+from pathlib import Path
+
+HERE = Path(__file__).resolve().parent
+sys.path.insert(0, str(HERE.parent))
+
+from certify import equilibrium, load_model, make_model  # noqa: E402
+from certify.api import write_certificate  # noqa: E402
+
+BOTH = ("flint", "python")
+
+
+def lorenz(rho):
+    # Lorenz 1963
+    return make_model(["x", "y", "z"], ["sigma*(y - x)", "rho*x - y - x*z", "x*y - beta*z"],
+                      {"sigma": 10, "beta": "8/3", "rho": rho}, name="Lorenz 1963")
+
+
+def brusselator(b):
+    # Prigogine & Lefever 1968, a = 1
+    return make_model(["x", "y"], ["a - (b + 1)*x + x**2*y", "b*x - x**2*y"], {"a": 1, "b": b},
+                      name="Brusselator")
+
+
+def logistic(r):
+    # May 1976
+    return make_model(["x"], ["r*x*(1 - x)"], {"r": r}, kind="map", name="logistic map")
+
+
+CASES = [
+    ("chemostat", load_model(HERE.parent / "examples" / "chemostat.toml"), None, 1),
+    ("fishery", load_model(HERE.parent / "examples" / "fishery.toml"), None, 1),
+    ("seasonal-map", load_model(HERE.parent / "examples" / "seasonal-map.toml"), None, 1),
+    ("seasonal-map-period2", load_model(HERE.parent / "examples" / "seasonal-map.toml"), None, 2),
+    ("lorenz-rho28", lorenz(28), [{"x": 0.1, "y": 0.1, "z": 0.1}, {"x": 8, "y": 8, "z": 27}], 1),
+    ("lorenz-rho1", lorenz(1), [{"x": 0.01, "y": 0.01, "z": 0.01}], 1),
+    ("lorenz-c-plus-rho21-box", lorenz(["21", "21.25"]), [{"x": 6.6, "y": 6.6, "z": 20}], 1),
+    ("brusselator-sink", brusselator("3/2"), [{"x": 1.1, "y": 1.4}], 1),
+    ("brusselator-source", brusselator("5/2"), [{"x": 1.1, "y": 2.4}], 1),
+    ("brusselator-hopf", brusselator(2), [{"x": 1.1, "y": 1.9}], 1),
+    ("logistic-r2.5", logistic("5/2"), [{"x": 0.6}], 1),
+    ("logistic-r3", logistic(3), [{"x": 0.6}], 1),
+    ("logistic-period2", logistic("16/5"), [{"x": 0.8}], 2),
+    ("saddle-node", make_model(["x"], ["mu - x**2"], {"mu": "1/4"}, name="saddle-node"),
+     [{"x": 0.6}, {"x": -0.4}], 1),
+    ("cubic", make_model(["x"], ["alpha*x**3"], {"alpha": -1}, name="cubic"), [{"x": 0.5}], 1),
+    ("transcendental", make_model(
+        ["u", "v"], ["exp(-u) - v + sin(v)/4", "atan(u) - sqrt(v) + tanh(u*v)/5 + log(1 + v)/9"],
+        {}, name="transcendental"), [{"u": 0.5, "v": 0.5}], 1),
+]
+
+
+def _neg(x: str) -> str:
+    return x[1:] if x.startswith("-") else ("-" + x if x != "0" else x)
+
+
+def tampered(valid: dict[str, dict]) -> list[tuple[str, object, str, str]]:
+    """Return (name, content, code, why) for each file of the invalid corpus."""
+    out = []
+    saddle = valid["chemostat-2"]
+
+    def edit(name, base, change, code, why):
+        doc = copy.deepcopy(base)
+        change(doc)
+        out.append((name, doc, code, why))
+
+    def shrink(doc):
+        lo, hi = (Fraction(v) for v in doc["pieces"][0]["box"][0])
+        c = Fraction(doc["pieces"][0]["centre"][0])
+        doc["pieces"][0]["box"][0] = [str(c - (c - lo) / 1000), str(c + (hi - c) / 1000)]
+
+    edit("box-shrunk", saddle, shrink, "krawczyk", "a box far inside its Krawczyk image")
+    edit("claim-sink", saddle, lambda d: d["claim"].update(stable_dimension=2,
+                                                           unstable_dimension=0),
+         "inertia", "a saddle claimed to be a sink")
+    edit("inertia-negated", saddle, lambda d: d["pieces"][0].update(inertia_matrix=[
+        [_neg(x) for x in row] for row in d["pieces"][0]["inertia_matrix"]]),
+        "not-definite", "the inertia matrix negated")
+    edit("inertia-asymmetric", saddle, lambda d: d["pieces"][0]["inertia_matrix"][0].__setitem__(
+        1, "12345/1024"), "inertia", "an inertia matrix that is not symmetric")
+    edit("centre-outside", saddle, lambda d: d["pieces"][0]["centre"].__setitem__(0, "100"),
+         "krawczyk", "the centre outside the box")
+    edit("parameter-widened", saddle, lambda d: d["model"]["parameters"].__setitem__(
+        "a", ["3", "16/5"]), "tiling", "the parameter box widened without new pieces")
+    edit("equation-edited", saddle, lambda d: d["model"]["equations"].__setitem__(
+        "u", "a / (1 + v**n) - k*u + 1"), "krawczyk", "an equation changed")
+    edit("equation-import", saddle, lambda d: d["model"]["equations"].__setitem__(
+        "u", "__import__('os').system('true')"), "model", "an import in an equation")
+    edit("equation-tower", saddle, lambda d: d["model"]["equations"].__setitem__(
+        "u", "10**10**10"), "model", "a power tower in an equation")
+    edit("version-2", saddle, lambda d: d.__setitem__("version", 2), "version", "unknown version")
+    edit("no-version", saddle, lambda d: d.pop("version"), "malformed", "version missing")
+    edit("number-as-float", saddle, lambda d: d["pieces"][0]["centre"].__setitem__(0, 1.25),
+         "malformed", "a binary float where an exact number belongs")
+    edit("box-short", saddle, lambda d: d["pieces"][0].__setitem__(
+        "box", d["pieces"][0]["box"][:1]), "malformed", "a box with one side missing")
+    edit("unknown-key", saddle, lambda d: d.__setitem__("trust_me", True), "malformed",
+         "an unknown key")
+    edit("dimension-absurd", saddle, lambda d: d["model"].__setitem__(
+        "variables", [f"x{i}" for i in range(1000)]), "malformed", "1000 variables")
+    box_cert = valid["lorenz-c-plus-rho21-box-1"]
+    edit("piece-removed", box_cert, lambda d: d["pieces"].pop(), "tiling",
+         "one piece of the parameter cover removed")
+    edit("piece-duplicated", box_cert, lambda d: d["pieces"].append(d["pieces"][0]), "tiling",
+         "one piece listed twice")
+    hopf = valid["brusselator-hopf-1"]
+    edit("not-hyperbolic-moved", hopf, lambda d: d["claim"].__setitem__("point", ["1", "201/100"]),
+         "not-zero", "the claimed exact equilibrium moved")
+    edit("not-hyperbolic-source", hopf, lambda d: (d["model"]["parameters"].__setitem__(
+        "b", ["3", "3"]), d["claim"].__setitem__("point", ["1", "3"])), "hyperbolic",
+        "b = 3: the exact equilibrium (1, 3) is a source, not on the axis")
+    out.append(("not-json", "this is not JSON {", "malformed", "not JSON"))
+    out.append(("deep-nesting", "[" * 100000 + "]" * 100000, "malformed", "nesting 10^5 deep"))
+    out.append(("huge-number", '{"format": "certify-certificate", "version": 1, "precision": 5'
+                + "0" * 100000 + "}", "malformed", "a number with 10^5 digits"))
+    return out
+
+
+def main() -> None:
+    valid_dir, invalid_dir = HERE / "valid", HERE / "invalid"
+    for d in (valid_dir, invalid_dir):
+        d.mkdir(exist_ok=True)
+        for old in d.glob("*.json"):
+            old.unlink()
+    valid: dict[str, dict] = {}
+    for name, model, guesses, period in CASES:
+        results = equilibrium(model, guesses, period=period, arithmetics=BOTH)
+        for k, r in enumerate(results, 1):
+            if r.certificate is None:
+                raise SystemExit(f"{name}-{k}: {r.verdict} ({r.reason}): {r.message}")
+            valid[f"{name}-{k}"] = r.certificate
+            write_certificate(r.certificate, valid_dir / f"{name}-{k}.cert.json")
+    manifest = {}
+    for name, content, code, why in tampered(valid):
+        path = invalid_dir / f"{name}.cert.json"
+        path.write_text(content if isinstance(content, str) else json.dumps(content, indent=1))
+        manifest[path.name] = {"code": code, "why": why}
+    (invalid_dir / "MANIFEST.json").write_text(json.dumps(manifest, indent=1) + "\n")
+    print(f"{len(valid)} valid, {len(manifest)} invalid certificates written")
+
+
+if __name__ == "__main__":
+    main()
