@@ -1,0 +1,186 @@
+"""Mutation property test: edited certificates are rejected, or still prove what they claim.
+
+Each mutant of a valid certificate (a number nudged by the smallest step of its notation, a
+matrix entry replaced, a parameter box widened, an equation edited, a field dropped, duplicated
+or retyped, variables swapped, the claim changed) is given to the checker. When the checker
+accepts it, the claim is re-derived independently with mpmath at 40 digits: a zero of the
+(possibly edited) model near the centre of each piece, inside its box, with as many stable
+directions as claimed; for a "not hyperbolic" claim, an exact zero whose characteristic
+polynomial (sympy) has a root on the imaginary axis or the unit circle.
+"""
+
+from __future__ import annotations
+
+import copy
+import json
+from fractions import Fraction as F
+from pathlib import Path
+
+import mpmath
+import sympy as sp
+from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
+
+from certify.check import CertificateRejected, check
+from certify.check.expr import parse_expression
+from certify.model.symbolic import to_sympy
+
+CORPUS = sorted((Path(__file__).resolve().parent.parent / "proofs" / "valid").glob("*.cert.json"))
+BASES = [json.loads(p.read_text()) for p in CORPUS]
+COUNTS = {"tried": 0, "rejected": 0, "accepted": 0}
+MUTANTS = 1200
+
+
+def _step(text: str, up: bool) -> str:
+    """Return the number with its last digit (numerator) moved by one."""
+    num, _, den = text.partition("/")
+    num = str(int(num) + (1 if up else -1))
+    return f"{num}/{den}" if den else num
+
+
+def _numbers(doc) -> list[tuple[list, object]]:
+    """Return (container, key) for every exact number in the pieces and the claim point."""
+    spots = []
+
+    def walk(node):
+        if isinstance(node, list):
+            for i, v in enumerate(node):
+                if isinstance(v, str):
+                    spots.append((node, i))
+                else:
+                    walk(v)
+        elif isinstance(node, dict):
+            for v in node.values():
+                walk(v)
+
+    walk(doc.get("pieces", []))
+    walk(doc["model"]["parameters"])
+    if "point" in doc["claim"]:
+        walk(doc["claim"]["point"])
+    return spots
+
+
+@st.composite
+def mutants(draw):
+    doc = copy.deepcopy(draw(st.sampled_from(BASES)))
+    kind = draw(st.sampled_from(["nudge", "nudge", "nudge", "replace", "widen", "equation",
+                                 "drop", "duplicate", "retype", "swap", "claim"]))
+    spots = _numbers(doc)
+    if kind == "nudge" and spots:
+        box, key = draw(st.sampled_from(spots))
+        box[key] = _step(box[key], draw(st.booleans()))
+    elif kind == "replace" and spots:
+        box, key = draw(st.sampled_from(spots))
+        q = draw(st.fractions(min_value=-50, max_value=50, max_denominator=64))
+        box[key] = f"{q.numerator}/{q.denominator}"
+    elif kind == "widen" and doc["model"]["parameters"]:
+        name = draw(st.sampled_from(sorted(doc["model"]["parameters"])))
+        lo, hi = doc["model"]["parameters"][name]
+        delta = draw(st.sampled_from([F(1, 10**6), F(1, 100), F(1)]))
+        doc["model"]["parameters"][name] = [str(F(lo) - delta), hi]
+    elif kind == "equation":
+        var = draw(st.sampled_from(sorted(doc["model"]["equations"])))
+        edit = draw(st.sampled_from([" + 1/1000", " - 1/10**6", "*(1 + 1/100)", " + 0*x"]))
+        doc["model"]["equations"][var] = f"({doc['model']['equations'][var]}){edit}"
+    elif kind == "drop":
+        target = draw(st.sampled_from([doc, doc["model"], doc["claim"]] + doc.get("pieces", [])))
+        if target:
+            target.pop(draw(st.sampled_from(sorted(target))))
+    elif kind == "duplicate" and doc.get("pieces"):
+        doc["pieces"].append(copy.deepcopy(draw(st.sampled_from(doc["pieces"]))))
+    elif kind == "retype" and spots:
+        box, key = draw(st.sampled_from(spots))
+        box[key] = draw(st.sampled_from([float(F(box[key])), [box[key]], None, True]))
+    elif kind == "swap" and len(doc["model"]["variables"]) > 1:
+        v = doc["model"]["variables"]
+        v[0], v[1] = v[1], v[0]
+    elif kind == "claim":
+        c = doc["claim"]
+        if c["verdict"] == "hyperbolic":
+            shift = draw(st.sampled_from([-1, 1]))
+            c["stable_dimension"] += shift
+            c["unstable_dimension"] -= shift
+        else:
+            doc["claim"] = {"verdict": "hyperbolic", "stable_dimension": 0,
+                            "unstable_dimension": len(doc["model"]["variables"])}
+    return doc
+
+
+def _system(doc):
+    """Return (variables, sympy right-hand sides, kind, period) of a certificate's model."""
+    model = doc["model"]
+    names = frozenset(model["variables"]) | frozenset(model["parameters"])
+    syms = {n: sp.Symbol(n, real=True) for n in names}
+    rhs = [to_sympy(parse_expression(model["equations"][v], names), syms)
+           for v in model["variables"]]
+    return [syms[v] for v in model["variables"]], rhs, syms, model["kind"], doc.get("period", 1)
+
+
+def _rederive_hyperbolic(doc, verified):
+    xs, rhs, syms, kind, period = _system(doc)
+    mpmath.mp.dps = 40
+    for piece in doc["pieces"]:
+        subs = {syms[p]: sp.Rational((F(lo) + F(hi)) / 2)
+                for p, (lo, hi) in piece["parameters"].items()}
+        g = [r.subs(subs) for r in rhs]
+        for _ in range(period - 1):
+            g = [r.subs(subs).subs(dict(zip(xs, g)), simultaneous=True) for r in rhs]
+        f = [gi - (x if kind == "map" else 0) for gi, x in zip(g, xs)]
+        fn = sp.lambdify(xs, f, "mpmath")
+        jac = sp.lambdify(xs, sp.Matrix(g).jacobian(xs), "mpmath")
+        start = [mpmath.mpf(F(c).numerator) / F(c).denominator for c in piece["centre"]]
+        root = mpmath.findroot(lambda *x: fn(*x), start, tol=1e-30)
+        root = ([root[i] for i in range(len(xs))] if isinstance(root, mpmath.matrix)
+                else [root])
+        for r, (lo, hi) in zip(root, piece["box"]):
+            assert mpmath.mpf(F(lo).numerator) / F(lo).denominator - 1e-25 <= r
+            assert r <= mpmath.mpf(F(hi).numerator) / F(hi).denominator + 1e-25
+        ev = mpmath.eig(mpmath.matrix(jac(*root)))[0]
+        if kind == "flow":
+            assert all(abs(mpmath.re(e)) > 1e-20 for e in ev)
+            stable = sum(1 for e in ev if mpmath.re(e) < 0)
+        else:
+            assert all(abs(abs(e) - 1) > 1e-20 for e in ev)
+            stable = sum(1 for e in ev if abs(e) < 1)
+        assert stable == verified.claim["stable_dimension"]
+
+
+def _rederive_not_hyperbolic(doc):
+    xs, rhs, syms, kind, period = _system(doc)
+    subs = {syms[p]: sp.Rational(F(lo)) for p, (lo, hi) in doc["model"]["parameters"].items()}
+    point = {x: sp.Rational(F(v)) for x, v in zip(xs, doc["claim"]["point"])}
+    g = [r.subs(subs) for r in rhs]
+    for _ in range(period - 1):
+        g = [r.subs(subs).subs(dict(zip(xs, g)), simultaneous=True) for r in rhs]
+    values = [gi.subs(point) - (point[x] if kind == "map" else 0) for gi, x in zip(g, xs)]
+    assert all(sp.simplify(v) == 0 for v in values)
+    t = sp.Symbol("t")
+    poly = sp.Poly(sp.Matrix(g).jacobian(xs).subs(point).charpoly(t).as_expr(), t)
+    roots = poly.nroots(n=50)
+    gap = [abs(sp.re(r)) if kind == "flow" else abs(abs(r) - 1) for r in roots]
+    assert min(gap) < 1e-40
+
+
+@settings(max_examples=MUTANTS, deadline=None, suppress_health_check=list(HealthCheck))
+@given(mutants())
+def test_mutants_are_rejected_or_still_prove_their_claim(doc):
+    COUNTS["tried"] += 1
+    try:
+        verified = check(doc, "flint")
+    except CertificateRejected:
+        COUNTS["rejected"] += 1
+        return
+    COUNTS["accepted"] += 1
+    if verified.claim["verdict"] == "hyperbolic":
+        _rederive_hyperbolic(doc, verified)
+    else:
+        _rederive_not_hyperbolic(doc)
+
+
+def test_mutation_count():
+    if COUNTS["tried"] == 0:
+        return  # the property test was deselected
+    print(f"\nmutants tried: {COUNTS['tried']}, rejected: {COUNTS['rejected']}, "
+          f"accepted and re-derived: {COUNTS['accepted']}")
+    assert COUNTS["tried"] >= 1000
+    assert COUNTS["rejected"] >= COUNTS["tried"] // 3
