@@ -28,7 +28,8 @@ def test_inertia_against_sympy_eigenvalues():
     ev = sp.Matrix(a).eigenvals()
     pos = sum(m for v, m in ev.items() if sp.re(sp.N(v)) > 0)
     assert exact.inertia(a) == (pos, 3 - pos)
-    assert exact.inertia(_m([[0, 1], [1, 0]])) is None  # needs a 2x2 pivot: refused, not guessed
+    assert exact.inertia(_m([[0, 1], [1, 0]])) == (1, 1)  # no 1x1 pivot: a congruence first
+    assert exact.inertia(_m([[0, 0, 1], [0, 0, 0], [1, 0, 0]])) is None  # singular: refused
 
 
 def test_charpoly_against_sympy():

@@ -43,10 +43,17 @@ class ArbArithmetic:
         return self.flint.arb(self.flint.fmpq(q.numerator, q.denominator))
 
     def interval(self, lo: Fraction, hi: Fraction):
-        """Return a ball containing the closed interval [lo, hi]."""
+        """Return a ball containing the closed interval [lo, hi].
+
+        A ball's radius carries 30 bits, so a union can reach slightly past an end; an interval
+        of one sign is cut back to that sign (its exact range lies there).
+        """
         if lo == hi:
             return self.const(lo)
-        return self.const(lo).union(self.const(hi))
+        ball = self.const(lo).union(self.const(hi))
+        if lo >= 0:
+            return ball.nonnegative_part()
+        return -((-ball).nonnegative_part()) if hi <= 0 else ball
 
     def bounds(self, x) -> Bounds:
         """Return exact rational bounds lo <= x <= hi."""
@@ -68,10 +75,6 @@ class ArbArithmetic:
     def positive(self, x) -> bool:
         """Return whether every point of x is > 0."""
         return bool(x > 0)
-
-    def negative(self, x) -> bool:
-        """Return whether every point of x is < 0."""
-        return bool(x < 0)
 
     def _finite(self, y, what: str):
         if not y.is_finite():
@@ -140,16 +143,6 @@ class ExactArithmetic:
         """Return q."""
         return q
 
-    def interval(self, lo: Fraction, hi: Fraction) -> Fraction:
-        """Return the point lo; a proper interval has no exact value."""
-        if lo != hi:
-            raise DomainError("parameter", "exact evaluation needs point parameters")
-        return lo
-
-    def bounds(self, x: Fraction) -> Bounds:
-        """Return (x, x)."""
-        return x, x
-
     def exact_integer(self, x: Fraction) -> int | None:
         """Return x as an int when it is an integer."""
         return int(x) if x.denominator == 1 else None
@@ -157,10 +150,6 @@ class ExactArithmetic:
     def positive(self, x: Fraction) -> bool:
         """Return whether x > 0."""
         return x > 0
-
-    def negative(self, x: Fraction) -> bool:
-        """Return whether x < 0."""
-        return x < 0
 
     def div(self, a: Fraction, b: Fraction, what: str = "/") -> Fraction:
         """Return a / b for b != 0."""

@@ -293,10 +293,18 @@ def _check_krawczyk(ctx: Problem, ar, pbox: Box, centre: list[Fraction], box: Bo
         lo, hi = _bounds(ar, k, where)
         if not (box[i][0] < lo and hi < box[i][1]):
             raise CertificateRejected("krawczyk", f"{where}.box[{i}]",
-                                      f"found K = [{float(lo):.17g}, {float(hi):.17g}], "
+                                      f"found K = [{_approx(lo)}, {_approx(hi)}], "
                                       "expected a subset of the interior of the box")
         result.append((lo, hi))
     return result, jac
+
+
+def _approx(q: Fraction) -> str:
+    """Return a short decimal rendering of q for a message (never used to decide)."""
+    try:
+        return f"{float(q):.17g}"
+    except OverflowError:
+        return ("-" if q < 0 else "") + "huge"
 
 
 def _bounds(ar, x, where: str) -> Bounds:

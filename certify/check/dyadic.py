@@ -169,10 +169,6 @@ class DyadicArithmetic:
         """Return whether every point of x is > 0."""
         return x.positive()
 
-    def negative(self, x: Dyadic) -> bool:
-        """Return whether every point of x is < 0."""
-        return x.negative()
-
     def div(self, a: Dyadic, b: Dyadic, what: str = "/") -> Dyadic:
         """Return a / b, refusing a divisor that may be 0."""
         if not (b.positive() or b.negative()):

@@ -22,15 +22,25 @@ def leading_minor_signs(a: Matrix) -> list[int] | None:
     """Return the signs of the leading principal minors of P a P^T for a symmetric pivot order.
 
     Fraction-free Bareiss elimination; at each step a remaining index with a nonzero diagonal
-    entry is moved to the front (a symmetric permutation, which keeps the inertia). Returns None
-    when every remaining diagonal entry is zero (no 1x1 pivot exists).
+    entry is moved to the front (a symmetric permutation, which keeps the inertia). When every
+    remaining diagonal entry is zero but some m_ij is not, row and column j are added to row and
+    column i (a congruence, which keeps the inertia, Sylvester 1852), making m_ii = 2 m_ij.
+    Returns None when the remaining block is zero (the matrix is singular).
     """
     m = _integer_matrix(a)
     n, prev, signs = len(m), 1, []
     for k in range(n):
         piv = next((i for i in range(k, n) if m[i][i] != 0), None)
         if piv is None:
-            return None
+            pair = next(((i, j) for i in range(k, n) for j in range(i + 1, n) if m[i][j]), None)
+            if pair is None:
+                return None
+            i, j = pair
+            for c in range(k, n):
+                m[i][c] += m[j][c]
+            for r in range(k, n):
+                m[r][i] += m[r][j]
+            piv = i
         if piv != k:
             m[k], m[piv] = m[piv], m[k]
             for row in m:
@@ -56,11 +66,6 @@ def inertia(a: Matrix) -> tuple[int, int] | None:
         return None
     negative = sum(1 for s, t in zip([1] + signs, signs) if s != t)
     return len(a) - negative, negative
-
-
-def is_positive_definite(a: Matrix) -> bool:
-    """Return whether the symmetric rational matrix a is positive definite (Sylvester)."""
-    return _integer_positive_definite(_integer_matrix(a))
 
 
 def _integer_positive_definite(m: list[list[int]]) -> bool:

@@ -96,8 +96,6 @@ def _walk(node: ast.AST, src: str, names: frozenset[str], depth: int) -> tuple:
         if op == "pow":
             _check_exponent(node.right, src)
         return (op, left, right)
-    if isinstance(node, ast.BinOp) and isinstance(node.op, ast.BitXor):
-        raise ExpressionError("use ** for powers", "^", col)
     if isinstance(node, ast.Call):
         fname = node.func.id if isinstance(node.func, ast.Name) else None
         if fname not in FUNCTIONS:

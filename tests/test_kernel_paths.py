@@ -1,0 +1,236 @@
+"""Every refusal path of the trusted kernel, one by one (the branch-coverage gate's tests)."""
+
+from __future__ import annotations
+
+import copy
+import json
+from fractions import Fraction as F
+from pathlib import Path
+
+import pytest
+from flint import arb
+
+from certify.check import CertificateRejected, check, load
+from certify.check import certificate as cert_module
+from certify.check import exact
+from certify.check.ad import evaluate
+from certify.check.arith import ArbArithmetic, DomainError, ExactArithmetic
+from certify.check.dyadic import DyadicArithmetic
+from certify.check.expr import ExpressionError, Tape, parse_expression, parse_rational
+
+VALID = Path(__file__).resolve().parent.parent / "proofs" / "valid"
+SADDLE = json.loads((VALID / "chemostat-2.cert.json").read_text())
+ARITHMETICS = [ArbArithmetic(53), DyadicArithmetic(53)]
+
+
+def _eval(text, lo, hi, ar, names=("x",)):
+    tape = Tape([parse_expression(text, set(names))], list(names), [])
+    with ar.active():
+        vals, jac = evaluate(tape, ar, [ar.interval(F(lo), F(hi))], [])
+        return ar.bounds(vals[0]), ar.bounds(jac[0][0])
+
+
+@pytest.mark.parametrize("ar", ARITHMETICS, ids=lambda a: a.name)
+def test_general_powers_and_their_derivatives(ar):
+    (lo, hi), (dlo, dhi) = _eval("x**(1/2)", 4, 4, ar)
+    assert lo <= 2 <= hi and dlo <= F(1, 4) <= dhi
+    (lo, hi), (dlo, dhi) = _eval("x**x", 2, 2, ar)  # d/dx x^x = x^x (log x + 1)
+    assert lo <= 4 <= hi and dlo <= F(677259, 10**5) and dhi >= F(677258, 10**5)  # 6.772588...
+    (lo, hi), _ = _eval("x**(-2)", 2, 2, ar)
+    assert lo <= F(1, 4) <= hi
+    (lo, hi), _ = _eval("x**0 + 0*x", -1, 1, ar)
+    assert lo <= 1 <= hi
+    with pytest.raises(DomainError, match="non-integer power"):
+        _eval("x**(1/2)", -1, 4, ar)
+    with pytest.raises(DomainError, match="not differentiable"):
+        _eval("sqrt(x)", 0, 1, ar)
+    (lo, hi), (dlo, dhi) = _eval("tan(x)", 0, 0, ar)  # tan' = 1 + tan^2
+    assert lo <= 0 <= hi and dlo <= 1 <= dhi
+
+
+@pytest.mark.parametrize("ar", ARITHMETICS, ids=lambda a: a.name)
+def test_domain_refusals(ar):
+    for text, lo, hi in [("log(x)", -1, 1), ("sqrt(x)", -1, 1), ("tan(x)", 1, 2),
+                         ("1/x", -1, 1), ("x**(-1)", -1, 1)]:
+        with pytest.raises(DomainError):
+            _eval(text, lo, hi, ar)
+
+
+def test_dyadic_edges():
+    ar = DyadicArithmetic(53)
+    with pytest.raises(DomainError):
+        ar.call("exp", ar.const(F(2**22)), "exp")
+    with pytest.raises(DomainError):
+        ar.call("cos", ar.const(F(2**22)), "cos")
+    lo, hi = ar.bounds(ar.call("cos", ar.interval(F(0), F(10)), "cos"))
+    assert lo <= -1 and hi >= 1
+    lo, hi = ar.bounds(ar.call("tanh", ar.const(F(5000)), "tanh"))
+    assert lo < 1 <= hi and 1 - lo < F(1, 2**50)
+    lo, hi = ar.bounds(ar.call("tanh", ar.const(F(-5000)), "tanh"))
+    assert lo <= -1 < hi
+    assert ar.bounds(ar.call("sqrt", ar.const(F(0)), "sqrt")) == (0, 0)
+    lo, hi = ar.bounds(ar.ipow(ar.const(F(2)), -2))
+    assert lo <= F(1, 4) <= hi
+    assert ar.bounds(ar.ipow(ar.interval(F(-3), F(2)), 0)) == (1, 1)
+    lo, hi = ar.bounds(ar.call("cosh", ar.interval(F(-1), F(2)), "cosh"))
+    assert lo <= 1 and hi >= F(3762, 1000)
+
+
+def test_arb_refuses_non_finite_values():
+    ar = ArbArithmetic(53)
+    with pytest.raises(DomainError):
+        ar.bounds(arb("nan"))
+    with pytest.raises(DomainError):
+        ar._finite(arb("nan"), "x")
+    with pytest.raises(CertificateRejected) as info:
+        cert_module._bounds(ar, arb("nan"), "here")
+    assert info.value.code == "domain"
+
+
+def test_exact_arithmetic():
+    ar = ExactArithmetic()
+    assert ar.positive(F(1)) and not ar.positive(F(0))
+    with pytest.raises(DomainError):
+        ar.div(F(1), F(0))
+    with pytest.raises(DomainError):
+        ar.ipow(F(0), -1)
+    assert ar.exact_integer(F(3)) == 3 and ar.exact_integer(F(1, 2)) is None
+
+
+def test_exact_layer_pivots_and_repeated_roots():
+    assert exact.inertia([[F(0), F(1), F(0)], [F(1), F(2), F(0)], [F(0), F(0), F(3)]]) == (2, 1)
+    assert exact.has_positive_root([F(1), F(-2), F(1)])  # (s - 1)^2: Sturm ends early
+
+
+def test_expression_edges():
+    with pytest.raises(ExpressionError, match="must be a string"):
+        parse_expression(3, {"x"})
+    with pytest.raises(ExpressionError, match="at most 20000"):
+        parse_expression("x+" * 10001 + "x", {"x"})
+    with pytest.raises(ExpressionError, match="nesting deeper"):
+        parse_expression("-" * 350 + "x", {"x"})
+    with pytest.raises(ExpressionError, match="called with one argument"):
+        parse_expression("exp + 1", {"x"})
+    with pytest.raises(ExpressionError, match="as text"):
+        parse_rational(3)
+    assert parse_expression("(x +\n 2)", {"x"}) == ("add", ("name", "x"), ("num", 2))
+    assert parse_expression("x + 2 # é", {"x"}) == ("add", ("name", "x"), ("num", 2))
+
+
+def _mutated(change):
+    doc = copy.deepcopy(SADDLE)
+    change(doc)
+    return doc
+
+
+@pytest.mark.parametrize("change, code", [
+    (lambda d: d["pieces"][0]["centre"].__setitem__(0, "1/0"), "malformed"),
+    (lambda d: d.__setitem__("model", []), "malformed"),
+    (lambda d: d["model"].__setitem__("kind", "ode"), "malformed"),
+    (lambda d: d["model"].__setitem__("parameters", []), "malformed"),
+    (lambda d: d["model"]["parameters"].__setitem__("1a", ["1", "1"]), "malformed"),
+    (lambda d: d["model"]["parameters"].__setitem__("u", ["1", "1"]), "model"),
+    (lambda d: d["claim"].update(stable_dimension=2, unstable_dimension=1), "inertia"),
+    (lambda d: d["claim"].__setitem__("verdict", "stable"), "malformed"),
+    (lambda d: d.__setitem__("period", 2), "malformed"),
+    (lambda d: d.__setitem__("format", "other"), "version"),
+    (lambda d: d["pieces"][0]["box"].__setitem__(0, ["2", "1"]), "malformed"),
+    (lambda d: d["pieces"][0]["parameters"].__setitem__("a", ["3", "3"]), "tiling"),
+    (lambda d: d["pieces"][0].__setitem__("inertia_matrix", [["1", "0"], ["0", "1"]]),
+     "not-definite"),
+])
+def test_certificate_refusals(change, code):
+    with pytest.raises(CertificateRejected) as info:
+        check(_mutated(change))
+    assert info.value.code == code
+
+
+def test_reader_refusals():
+    for text in ["[1, 2]", "x" * (cert_module.MAX_BYTES + 1)]:
+        with pytest.raises(CertificateRejected):
+            load(text)
+    with pytest.raises(CertificateRejected) as info:
+        check(SADDLE, "quantum")
+    assert info.value.code == "malformed"
+
+
+def test_tiling_of_a_two_parameter_box():
+    outer = [(F(0), F(2)), (F(0), F(1)), (F(5), F(5))]
+    halves = [[(F(0), F(1)), (F(0), F(1)), (F(5), F(5))], [(F(1), F(2)), (F(0), F(1)),
+                                                             (F(5), F(5))]]
+    cert_module._check_tiling(outer, halves)
+    with pytest.raises(CertificateRejected):  # overlap with the right total volume
+        cert_module._check_tiling(outer, [halves[0], halves[0], ])
+    with pytest.raises(CertificateRejected):  # an overlapping pair hiding a gap
+        cert_module._check_tiling(outer, [[(F(0), F(1)), (F(0), F(1)), (F(5), F(5))],
+                                          [(F(1, 2), F(3, 2)), (F(0), F(1)), (F(5), F(5))],
+                                          [(F(3, 2), F(2)), (F(0), F(1)), (F(5), F(5))],
+                                          [(F(0), F(1, 2)), (F(0), F(0)), (F(5), F(5))]])
+    with pytest.raises(CertificateRejected):  # a point parameter that differs
+        cert_module._check_tiling(outer, [[(F(0), F(2)), (F(0), F(1)), (F(4), F(4))]])
+
+
+def test_a_lyapunov_matrix_without_1x1_pivots_is_accepted():
+    # For the chemostat saddle, J ~ [[-1, -c], [-c, -1]] with c > 1, and S = [[0, 1], [1, 0]]
+    # makes -(J^T S + S J) = 2 [[c, 1], [1, c]] positive definite: inertia (1, 1), a saddle.
+    doc = _mutated(lambda d: d["pieces"][0].__setitem__("inertia_matrix", [["0", "1"],
+                                                                            ["1", "0"]]))
+    assert check(doc).claim["stable_dimension"] == 1
+
+
+@pytest.mark.parametrize("ar", ARITHMETICS, ids=lambda a: a.name)
+@pytest.mark.parametrize("fname", ["exp", "log", "sqrt", "sin", "cos", "tan", "tanh", "sinh",
+                                   "cosh", "atan"])
+def test_every_function_derivative_against_mpmath(ar, fname):
+    import mpmath
+
+    mpmath.mp.dps = 40
+    x0 = F(3, 10)
+    (lo, hi), (dlo, dhi) = _eval(f"{fname}(x)", x0, x0, ar)
+    f = getattr(mpmath, fname)
+    value, slope = f(mpmath.mpf(3) / 10), mpmath.diff(f, mpmath.mpf(3) / 10)
+    assert mpmath.mpf(lo.numerator) / lo.denominator <= value <= \
+        mpmath.mpf(hi.numerator) / hi.denominator
+    assert mpmath.mpf(dlo.numerator) / dlo.denominator <= slope <= \
+        mpmath.mpf(dhi.numerator) / dhi.denominator
+
+
+def test_tiling_by_quarters():
+    outer = [(F(0), F(2)), (F(0), F(2))]
+    quarters = [[(F(a), F(a + 1)), (F(b), F(b + 1))] for a in (0, 1) for b in (0, 1)]
+    cert_module._check_tiling(outer, quarters)
+
+
+def test_a_huge_box_end_is_reported_not_crashed():
+    # Found by tests/fuzz.py: a box end of about 2.4e30 overflowed the float in the message.
+    doc = _mutated(lambda d: d["pieces"][0]["box"][0].__setitem__(1, "10" + "0" * 400))
+    with pytest.raises(CertificateRejected) as info:
+        check(doc)
+    assert info.value.code in ("krawczyk", "domain")
+    assert cert_module._approx(F(10) ** 400) == "huge"
+    assert cert_module._approx(-F(10) ** 400) == "-huge"
+
+
+def test_dyadic_special_arguments():
+    import mpmath
+
+    mpmath.mp.dps = 40
+    ar = DyadicArithmetic(53)
+    for fname, x in [("exp", F(0)), ("atan", F(0)), ("atan", F(7)), ("atan", F(-7)),
+                     ("sinh", F(1, 100)), ("tanh", F(1, 100)), ("tanh", F(3))]:
+        lo, hi = ar.bounds(ar.call(fname, ar.const(x), fname))
+        v = getattr(mpmath, fname)(mpmath.mpf(x.numerator) / x.denominator)
+        assert mpmath.mpf(lo.numerator) / lo.denominator <= v <= \
+            mpmath.mpf(hi.numerator) / hi.denominator, (fname, x)
+    big, tiny = ar.const(F(10**30)), ar.const(F(1, 10**30))
+    lo, hi = ar.bounds(tiny - big)  # the negligible term on both sides of both ends
+    assert lo <= F(1, 10**30) - 10**30 <= hi
+
+
+def test_exact_division_and_interval_parameters_in_a_not_hyperbolic_claim():
+    assert ExactArithmetic().div(F(1), F(4)) == F(1, 4)
+    doc = json.loads((VALID / "brusselator-hopf-1.cert.json").read_text())
+    doc["model"]["parameters"]["b"] = ["2", "21/10"]
+    with pytest.raises(CertificateRejected) as info:
+        check(doc)
+    assert info.value.code == "not-exact"
