@@ -3,6 +3,7 @@
     python benchmarks/run.py            all benchmarks
     python benchmarks/run.py eval       interval f and J against numpy floats
     python benchmarks/run.py certify    certified equilibria against float Newton + eigvals
+    python benchmarks/run.py verify     the checker: cold process time, warm throughput
 
 Targets (issues): certification of Lorenz C+ at most 10x float Newton + eigvals.
 """
@@ -98,9 +99,32 @@ def bench_certify() -> None:
               f"{r.unstable_dimension})")
 
 
+def bench_verify() -> None:
+    import subprocess
+    from pathlib import Path
+
+    from certify.check import check, load
+
+    cert = Path(__file__).resolve().parent.parent / "proofs" / "valid" / "lorenz-rho28-2.cert.json"
+    print("certify verify on one n = 3 certificate (Lorenz C+)")
+    runs = []
+    for _ in range(5):
+        t = time.perf_counter()
+        subprocess.run([sys.executable, "-m", "certify.cli", "verify", str(cert)],
+                       capture_output=True, check=True)
+        runs.append(time.perf_counter() - t)
+    print(f"  cold, whole process, both arithmetics: {min(runs) * 1e3:.0f} ms (target <= 500 ms)")
+    data = load(cert.read_bytes())
+    for arithmetic in ("flint", "python"):
+        t = per_call(lambda a=arithmetic: check(data, a), 300)
+        print(f"  warm, {arithmetic:6s}: {1 / t:7.0f} certificates per second")
+
+
 if __name__ == "__main__":
-    which = sys.argv[1:] or ["eval", "certify"]
+    which = sys.argv[1:] or ["eval", "certify", "verify"]
     if "eval" in which:
         bench_eval()
     if "certify" in which:
         bench_certify()
+    if "verify" in which:
+        bench_verify()

@@ -10,7 +10,7 @@ from pathlib import Path
 from .check import CertificateRejected, Verified, check, load
 from .errors import InputError
 from .model import Interval, Model, load_model
-from .search.equilibrium import DEFAULT_MAX_PRECISION, DEFAULT_PRECISION, Attempt, certify_guess
+from .search.settings import DEFAULT_MAX_PRECISION, DEFAULT_PRECISION
 
 TYPES = {"flow": ("sink", "source"), "map": ("attracting", "repelling")}
 
@@ -57,6 +57,8 @@ def equilibrium(model: Model | str | Path, guesses: list[dict[str, float]] | Non
     arithmetics: the checker's arithmetics every verdict must pass in-process ("flint", the
     fast one, by default; add "python" for the independent standard-library one).
     """
+    from .search.equilibrium import certify_guess  # numpy, scipy, sympy: only when searching
+
     if not isinstance(model, Model):
         model = load_model(model)
     if parameters:
@@ -80,7 +82,7 @@ def equilibrium(model: Model | str | Path, guesses: list[dict[str, float]] | Non
                                          arithmetics=arithmetics), period) for g in guesses]
 
 
-def _result(model: Model, attempt: Attempt, period: int) -> EquilibriumResult:
+def _result(model: Model, attempt, period: int) -> EquilibriumResult:
     res = EquilibriumResult(verdict=attempt.verdict, reason=attempt.reason,
                             message=attempt.message, kind=model.kind,
                             variables=model.variables, parameters=attempt.parameters,

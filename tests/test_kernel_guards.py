@@ -73,3 +73,16 @@ def test_hostile_files_are_rejected_quickly(text):
     with pytest.raises(CertificateRejected):
         check(load(text))
     assert time.perf_counter() - start < 5
+
+
+def test_verify_path_imports_no_numpy_scipy_or_sympy():
+    import subprocess
+
+    cert = KERNEL.parent.parent / "proofs" / "valid" / "lorenz-rho28-2.cert.json"
+    code = ("import sys, certify.cli; rc = certify.cli.main(['verify', sys.argv[1]]); "
+            "heavy = [m for m in ('numpy', 'scipy', 'sympy') if m in sys.modules]; "
+            "print('HEAVY', heavy); sys.exit(rc)")
+    proc = subprocess.run([sys.executable, "-c", code, str(cert)], capture_output=True,
+                          text=True, timeout=60, check=False)
+    assert proc.returncode == 0, proc.stderr
+    assert "HEAVY []" in proc.stdout

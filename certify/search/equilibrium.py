@@ -32,11 +32,8 @@ from ..model import Interval, Model
 from ..model.symbolic import FloatSystem
 from .inertia import inertia_matrix, to_exact
 
-DEFAULT_PRECISION = 53
-DEFAULT_MAX_PRECISION = 424
-MIN_PIECE_FRACTION = Fraction(1, 2**16)  # smallest piece width, relative to the requested box
-MAX_PIECES = 256
-INFLATION_ROUNDS = 20
+from .settings import (DEFAULT_MAX_PRECISION, DEFAULT_PRECISION, INFLATION_ROUNDS, MAX_PIECES,
+                       MIN_PIECE_FRACTION)
 
 
 class Undecided(Exception):
