@@ -4,6 +4,7 @@
     python benchmarks/run.py eval       interval f and J against numpy floats
     python benchmarks/run.py certify    certified equilibria against float Newton + eigvals
     python benchmarks/run.py verify     the checker: cold process time, warm throughput
+    python benchmarks/run.py widths     enclosure widths of the two arithmetics' functions
 
 Targets (issues): certification of Lorenz C+ at most 10x float Newton + eigvals.
 """
@@ -120,11 +121,28 @@ def bench_verify() -> None:
         print(f"  warm, {arithmetic:6s}: {1 / t:7.0f} certificates per second")
 
 
+def bench_widths() -> None:
+    from certify.check.dyadic import DyadicArithmetic
+
+    print("width of f(x) for a point x = 3/7 at 53 bits, in units of 2^-53 |f(x)|: arb vs ours")
+    ours, theirs = DyadicArithmetic(53), ArbArithmetic(53)
+    q = Fraction(3, 7)
+    for fname in ["exp", "log", "sqrt", "sin", "cos", "tan", "tanh", "sinh", "cosh", "atan"]:
+        row = []
+        for ar in (theirs, ours):
+            with ar.active():
+                lo, hi = ar.bounds(ar.call(fname, ar.const(q), fname))
+            row.append(float((hi - lo) / abs(hi)) * 2**53)
+        print(f"  {fname:5s} flint {row[0]:6.1f}   python {row[1]:6.1f}")
+
+
 if __name__ == "__main__":
-    which = sys.argv[1:] or ["eval", "certify", "verify"]
+    which = sys.argv[1:] or ["eval", "certify", "verify", "widths"]
     if "eval" in which:
         bench_eval()
     if "certify" in which:
         bench_certify()
     if "verify" in which:
         bench_verify()
+    if "widths" in which:
+        bench_widths()
