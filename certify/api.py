@@ -130,6 +130,23 @@ def _eigenvalues(model: Model, cert: dict, period: int) -> list[dict]:
     return sorted(out, key=lambda e: (e["re"][0], e["im"][0]))
 
 
+def scan(model: Model | str | Path, region: dict[str, Interval] | None = None,
+         parameters: dict[str, Interval] | None = None, max_boxes: int = 200_000,
+         time_limit: float = 120.0, progress=None, arithmetics: tuple[str, ...] = ("flint",)):
+    """Return the certified number of equilibria in a region (a ScanResult), for every
+    parameter in the model's (or the given) parameter box; count is None when not certified."""
+    from .search.region import scan as run_scan
+
+    if not isinstance(model, Model):
+        model = load_model(model)
+    if parameters:
+        model = model.with_parameters(parameters)
+    region = region or model.region
+    if not region:
+        raise InputError("no region: give one or a [region] table", model.source, "region")
+    return run_scan(model, region, max_boxes, time_limit, progress, arithmetics)
+
+
 ARITHMETICS = {"flint": ("flint",), "python": ("python",), "both": ("flint", "python")}
 
 

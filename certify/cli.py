@@ -21,6 +21,7 @@ EXAMPLES = """examples:
   certify equilibrium examples/chemostat.toml --out chemostat.cert.json
   certify equilibrium examples/chemostat.toml --set a=3.1..3.3 --guess u=2.9,v=0.35
   certify equilibrium examples/seasonal-map.toml --period 2
+  certify scan examples/chemostat.toml --out chemostat-count.cert.json
   certify verify chemostat-1.cert.json
 
 exit codes: 0 everything asked for is certified; 1 something is undecided, not hyperbolic or
@@ -60,6 +61,17 @@ def _parser() -> argparse.ArgumentParser:
                    help="highest precision tried before answering undecided (default 424)")
     q.add_argument("--out", metavar="CERT.json",
                    help="write the certificate here (several results: CERT-1.json, ...)")
+
+    q = sub.add_parser("scan", help="find every equilibrium in a region and certify the count",
+                       formatter_class=argparse.RawDescriptionHelpFormatter, epilog=EXAMPLES)
+    model_options(q)
+    q.add_argument("--region", metavar="u=0..4,v=0..4",
+                   help="the search box (default: the model's [region])")
+    q.add_argument("--max-boxes", type=int, default=200_000, metavar="N",
+                   help="stop after N boxes (default 200000); the count is then not certified")
+    q.add_argument("--time-limit", type=float, default=120.0, metavar="SECONDS",
+                   help="stop after this many seconds (default 120)")
+    q.add_argument("--out", metavar="CERT.json", help="write the certificate of the count here")
 
     q = sub.add_parser("verify", help="re-check certificate files with the trusted checker")
     q.add_argument("files", nargs="+", metavar="CERT.json")
@@ -121,6 +133,8 @@ def main(argv: list[str] | None = None) -> int:
             return _inspect(args)
         if args.command == "equilibrium":
             return _equilibrium(args)
+        if args.command == "scan":
+            return _scan(args)
         return _verify(args)
     except InputError as exc:
         print(f"certify: error: {exc}", file=sys.stderr)
@@ -168,6 +182,48 @@ def _equilibrium(args) -> int:
     else:
         report.print_results(model, results, CAUTION)
     return 0 if all(r.verdict == "hyperbolic" for r in results) else 1
+
+
+def parse_region(text: str, model) -> dict[str, tuple[Fraction, Fraction]]:
+    """Return {variable: (lo, hi)} from 'u=0..4,v=0..4' (every variable once)."""
+    region = {}
+    for item in text.split(","):
+        region.update(parse_assignments([item], "--region"))
+    for name, (lo, hi) in region.items():
+        if name not in model.variables:
+            raise InputError(f"'{name}' is not a variable", model.source, "--region")
+        if lo == hi:
+            raise InputError(f"the side for {name} has width 0", model.source, "--region")
+    missing = [v for v in model.variables if v not in region]
+    if missing:
+        raise InputError(f"no side for {', '.join(missing)}", model.source, "--region")
+    return region
+
+
+def _scan(args) -> int:
+    from .api import scan, write_certificate
+    from .io import report
+
+    model = _load(args)
+    region = parse_region(args.region, model) if args.region else model.region
+    if not region:
+        raise InputError("no region: give --region or a [region] table", model.source, "region")
+    if args.max_boxes < 1 or args.time_limit <= 0:
+        raise InputError("the budget must be positive", None, "--max-boxes/--time-limit")
+    if args.out and not Path(args.out).resolve().parent.is_dir():
+        raise InputError("the folder does not exist", args.out, "--out")
+    with report.scan_progress(enabled=not args.json) as progress:
+        result = scan(model, region, max_boxes=args.max_boxes, time_limit=args.time_limit,
+                      progress=progress, arithmetics=("flint", "python") if args.out
+                      else ("flint",))
+    if args.out and result.certificate is not None:
+        write_certificate(result.certificate, args.out)
+        result.certificate_path = args.out
+    if args.json:
+        print(json.dumps(report.scan_json(result), indent=1))
+    else:
+        report.print_scan(result, CAUTION)
+    return 0 if result.count is not None else 1
 
 
 def _verify(args) -> int:

@@ -131,7 +131,7 @@ def load(text: str | bytes) -> dict:
 def check(data: dict, arithmetic: str = "flint") -> Verified:
     """Return what the certificate proves, or raise CertificateRejected."""
     _dict(data, {"format", "version", "model", "claim", "precision"}, "certificate",
-          {"tool", "period", "pieces", "note"})
+          {"tool", "period", "pieces", "note", "region"})
     if data["format"] != FORMAT:
         raise CertificateRejected("version", "format", f"found {data['format']!r}, "
                                   f"expected {FORMAT!r}")
@@ -173,10 +173,16 @@ def check(data: dict, arithmetic: str = "flint") -> Verified:
     prec = _integer(data["precision"], 30, 100_000, "precision")
     claim = data["claim"]
     if not isinstance(claim, dict) or claim.get("verdict") not in ("hyperbolic",
-                                                                    "not hyperbolic"):
+                                                                    "not hyperbolic", "count"):
         raise CertificateRejected("malformed", "claim.verdict",
-                                  "expected \"hyperbolic\" or \"not hyperbolic\"")
+                                  "expected \"hyperbolic\", \"not hyperbolic\" or \"count\"")
     ctx = Problem(tape, kind, period, list(params), pbox)
+    ar = ArbArithmetic(prec) if arithmetic == "flint" else _other_arithmetic(arithmetic, prec)
+    if claim["verdict"] == "count":
+        from .region import check_count
+
+        derived, enclosures = check_count(ctx, ar, data, claim, n, variables)
+        return Verified(derived, kind, variables, pbox, enclosures, derived["pieces"], ar.name)
     if claim["verdict"] == "not hyperbolic":
         _dict(claim, {"verdict", "point"}, "claim", {"eigenvalue"})
         point = [_rational(x, f"claim.point[{i}]")
@@ -190,7 +196,6 @@ def check(data: dict, arithmetic: str = "flint") -> Verified:
     if stable + unstable != n:
         raise CertificateRejected("inertia", "claim", f"found {stable} + {unstable} "
                                   f"dimensions, expected a total of {n}")
-    ar = ArbArithmetic(prec) if arithmetic == "flint" else _other_arithmetic(arithmetic, prec)
     pieces = _list(data.get("pieces"), None, "pieces")
     if not 1 <= len(pieces) <= MAX_PIECES:
         raise CertificateRejected("malformed", "pieces", f"expected 1 to {MAX_PIECES} pieces")

@@ -163,4 +163,139 @@ def claim_text(verified) -> str:
         box = ", ".join(f"{p}={value_text(lo, hi)}" for p, (lo, hi) in verified.parameters.items())
         return (f"hyperbolic {word}, stable dimension {c['stable_dimension']}, "
                 f"unstable dimension {c['unstable_dimension']}{n_p}; {box}")
+    if c["verdict"] == "count":
+        return (f"exactly {c['count']} equilibria in the region, stable dimensions "
+                f"{c['stable_dimensions']}, {verified.pieces} parameter piece(s)")
     return f"not hyperbolic: exact eigenvalue on the axis ({c['eigenvalue']})"
+
+
+class _NoProgress:
+    def __enter__(self):
+        return None
+
+    def __exit__(self, *exc):
+        return False
+
+
+class _Progress:
+    """A progress bar on stderr (boxes done, boxes waiting, zeros found), shown after 2 s."""
+
+    def __init__(self):
+        import time
+
+        from rich.progress import Progress, TextColumn, TimeElapsedColumn
+
+        self.time = time
+        self.bar = Progress(TextColumn("scanning: {task.fields[done]} boxes done, "
+                                       "{task.fields[left]} waiting, {task.fields[zeros]} "
+                                       "zeros found"), TimeElapsedColumn(),
+                            console=Console(stderr=True), transient=True)
+        self.start, self.task, self.shown = time.monotonic(), None, False
+
+    def __enter__(self):
+        return self.update
+
+    def update(self, done: int, left: int, zeros: int) -> None:
+        if not self.shown and self.time.monotonic() - self.start > 2:
+            self.bar.start()
+            self.task = self.bar.add_task("scan", total=None, done=0, left=0, zeros=0)
+            self.shown = True
+        if self.shown:
+            self.bar.update(self.task, done=done, left=left, zeros=zeros)
+
+    def __exit__(self, *exc):
+        if self.shown:
+            self.bar.stop()
+        return False
+
+
+def scan_progress(enabled: bool):
+    """Return a context giving a progress callback for scans (None when not a terminal)."""
+    import sys
+
+    return _Progress() if enabled and sys.stderr.isatty() else _NoProgress()
+
+
+def _kind_word(kind: str, stable: int | None, n: int) -> str:
+    if stable is None:
+        return "unclassified"
+    stable_word, unstable_word = {"flow": ("sink", "source"),
+                                  "map": ("attracting", "repelling")}[kind]
+    return stable_word if stable == n else unstable_word if stable == 0 else "saddle"
+
+
+def _box_text(box, variables) -> str:
+    return ", ".join(f"{v} in {interval_text(lo, hi)}" for v, (lo, hi) in zip(variables, box))
+
+
+def print_scan(result, caution: str) -> None:
+    """Print the count, then one row per equilibrium found."""
+    model, con = result.model, _console()
+    n = model.dimension
+    con.print(f"[bold]{model.name}[/bold]  ({model.source}), {model.kind} in "
+              f"{', '.join(model.variables)}")
+    if model.parameters:
+        con.print("parameters: " + ", ".join(f"{p} = {value_text(lo, hi)}"
+                                             for p, (lo, hi) in model.parameters.items()))
+    con.print("region: " + _box_text([result.region[v] for v in model.variables],
+                                     model.variables))
+    what = "equilibria" if model.kind == "flow" else "fixed points"
+    if result.count is not None:
+        every = " for every parameter in the box" if any(
+            lo != hi for lo, hi in model.parameters.values()) else ""
+        pieces = f" ({result.pieces} parameter pieces)" if result.pieces > 1 else ""
+        con.print(f"[green]certified: exactly {result.count} {what} in the region{every}"
+                  f"{pieces}[/green]")
+    else:
+        con.print(f"[red]count not certified ({result.reason}): {result.message}[/red]")
+    table = Table(show_edge=False, box=None, padding=(0, 2))
+    table.add_column("  #")
+    table.add_column("kind")
+    table.add_column("stable/unstable")
+    table.add_column("where")
+    for k, z in enumerate(result.zeros, 1):
+        if z.inside is False:
+            continue
+        dims = ("-" if z.stable_dimension is None else
+                f"{z.stable_dimension}/{n - z.stable_dimension}")
+        word = _kind_word(model.kind, z.stable_dimension, n)
+        if z.inside is None:
+            word += " (on the border of the region)"
+        table.add_row(f"  {k}", word, dims, _box_text(z.enclosure or z.box, model.variables))
+    if result.zeros:
+        if result.pieces > 1:
+            con.print("  (enclosures below are for the first parameter piece)")
+        con.print(table)
+    if result.undecided_boxes:
+        con.print(f"undecided boxes ({len(result.undecided_boxes)}; first few shown):")
+        for box in result.undecided_boxes[:5]:
+            con.print("  " + _box_text(box, model.variables))
+    con.print(f"{result.boxes} boxes in {result.seconds:.2f} s")
+    if result.certificate_path:
+        con.print(f"certificate: {result.certificate_path} (passed the checker; re-check with "
+                  "certify verify)")
+    con.print(f"[dim]{caution}[/dim]")
+
+
+def scan_json(result) -> dict:
+    """Return the JSON object of a scan (DESIGN §8: count, undecided_boxes)."""
+    model = result.model
+    zeros = []
+    for z in result.zeros:
+        box = z.enclosure or z.box
+        zeros.append({"inside": z.inside,
+                      "type": _kind_word(model.kind, z.stable_dimension, model.dimension)
+                      if z.stable_dimension is not None else None,
+                      "stable_dimension": z.stable_dimension,
+                      "unstable_dimension": (None if z.stable_dimension is None
+                                             else model.dimension - z.stable_dimension),
+                      "enclosure": {v: list(bounds_text(lo, hi))
+                                    for v, (lo, hi) in zip(model.variables, box)}})
+    return {"model": model.source, "count": result.count, "reason": result.reason,
+            "message": result.message or None,
+            "region": {v: [_q(lo), _q(hi)] for v, (lo, hi) in result.region.items()},
+            "parameters": {p: [_q(lo), _q(hi)] for p, (lo, hi) in model.parameters.items()},
+            "equilibria": zeros, "pieces": result.pieces, "boxes": result.boxes,
+            "undecided_boxes": [{v: [_q(lo), _q(hi)] for v, (lo, hi) in
+                                 zip(model.variables, box)} for box in result.undecided_boxes],
+            "certificate": result.certificate_path}

@@ -1,0 +1,361 @@
+"""Find every equilibrium in a region and certify the count (untrusted branch and bound).
+
+Each box is, in this order: inside the uniqueness box of a zero already found; excluded because
+some component of f provably misses 0 on it; the home of a new zero (float Newton from its
+midpoint, then a Krawczyk box grown as far as the test allows, and a tight classified box);
+excluded because its Krawczyk image misses it; or cut in two across its widest side, measured
+relative to the region's side (so boxes stay similar in the region's own scale). The finished
+tree is a certificate the checker re-verifies (obligation 5); only its verdict is reported.
+"""
+
+from __future__ import annotations
+
+import time
+from dataclasses import dataclass, field
+from fractions import Fraction
+
+import numpy as np
+
+from ..check.ad import evaluate
+from ..check.arith import ArbArithmetic, DomainError
+from ..check.certificate import CertificateRejected, check, krawczyk_image, rational_text
+from ..model import Interval, Model
+from ..model.symbolic import FloatSystem
+from .equilibrium import Undecided, _inflate, certificate, certify_piece, float_residual, \
+    problem_of
+from .inertia import to_exact
+
+DEFAULT_MAX_BOXES = 200_000
+DEFAULT_TIME_LIMIT = 120.0  # seconds
+MIN_WIDTH = Fraction(1, 2**40)  # smallest box side, relative to the region's side
+GROWTH_STEPS = 40
+
+
+@dataclass
+class Zero:
+    """A zero found by the scan: its uniqueness box, enclosure and classification."""
+
+    entry: dict
+    box: list[Interval]
+    inside: bool | None = None
+    stable_dimension: int | None = None
+    enclosure: list[Interval] | None = None
+
+
+@dataclass
+class ScanResult:
+    """The outcome of a scan: a certified count, or null with the reason and the loose ends."""
+
+    model: Model
+    region: dict[str, Interval]
+    count: int | None
+    reason: str | None
+    message: str
+    zeros: list[Zero] = field(default_factory=list)
+    undecided_boxes: list[list[Interval]] = field(default_factory=list)
+    boxes: int = 0
+    seconds: float = 0.0
+    certificate: dict | None = None
+    certificate_path: str | None = None
+    pieces: int = 0
+
+
+def _q(q: Fraction) -> str:
+    return rational_text(q)
+
+
+class _Scanner:
+    def __init__(self, model: Model, region: list[Interval], pbox: list[Interval],
+                 max_boxes: int, deadline: float, progress, done: int = 0):
+        self.model, self.region = model, region
+        self.problem = problem_of(model)
+        self.ar = ArbArithmetic(53)
+        self.pbox = pbox
+        self.system = FloatSystem(model, dict(zip(self.problem.params, pbox)))
+        self.widths = [hi - lo for lo, hi in region]
+        self.zeros: list[Zero] = []
+        self.undecided: list[list[Interval]] = []
+        self.max_boxes, self.deadline = max_boxes, deadline
+        self.progress, self.done, self.start = progress, done, done
+        # A zero Newton found but Krawczyk could not enclose over a proper parameter box: give up
+        # on this piece at once, so the parameter box is cut instead of the state space.
+        self.abort = False
+        self.wide = any(lo != hi for lo, hi in pbox)
+        with self.ar.active():
+            self.p_iv = [self.ar.interval(lo, hi) for lo, hi in self.pbox]
+
+    def run(self) -> dict:
+        root: dict = {}
+        stack = [(root, self.region)]
+        while stack:
+            node, box = stack.pop()
+            self.done += 1
+            if self.progress and self.done % 100 == 0:
+                self.progress(self.done, len(stack), len(self.zeros))
+            if (self.abort or self.done - self.start > self.max_boxes
+                    or time.monotonic() > self.deadline):
+                node["undecided"] = True
+                self.undecided.append(box)
+                continue
+            hint = self._hint(box)
+            if hint is not None:
+                node.update(hint)
+                continue
+            k = max(range(len(box)), key=lambda i: (box[i][1] - box[i][0]) / self.widths[i]
+                    if self.widths[i] else -1)
+            lo, hi = box[k]
+            if not self.widths[k] or (hi - lo) / self.widths[k] < MIN_WIDTH:
+                node["undecided"] = True
+                self.undecided.append(box)
+                continue
+            mid = (lo + hi) / 2
+            low, high = {}, {}
+            node.update({"split": k, "at": _q(mid), "low": low, "high": high})
+            stack.append((high, box[:k] + [(mid, hi)] + box[k + 1:]))
+            stack.append((low, box[:k] + [(lo, mid)] + box[k + 1:]))
+        return root
+
+    def _hint(self, box: list[Interval]) -> dict | None:
+        """Return a leaf hint for the box, or None to cut it."""
+        for j, z in enumerate(self.zeros):
+            if all(z_lo <= lo and hi <= z_hi for (lo, hi), (z_lo, z_hi) in zip(box, z.box)):
+                return {"zero": j}
+        ar = self.ar
+        try:
+            with ar.active():
+                xs = [ar.interval(lo, hi) for lo, hi in box]
+                values, _ = evaluate(self.problem.tape, ar, xs, self.p_iv, 1, False)
+                for i, v in enumerate(values):
+                    if self.model.kind == "map":
+                        v = v - xs[i]
+                    lo, hi = ar.bounds(v)
+                    if lo > 0 or hi < 0:
+                        return {"exclude": i}
+        except DomainError:
+            return None
+        if self._find_zero(box):
+            return self._hint(box)
+        return self._krawczyk_empty(box)
+
+    def _find_zero(self, box: list[Interval]) -> bool:
+        """Look for a new zero near the box by float Newton; certify it; return whether found."""
+        x = np.array([float((lo + hi) / 2) for lo, hi in box])
+        for _ in range(30):
+            fx, jx = float_residual(self.system, self.model.kind, 1, x)
+            if not (np.all(np.isfinite(fx)) and np.all(np.isfinite(jx))):
+                return False
+            try:
+                step = np.linalg.solve(jx, fx)
+            except np.linalg.LinAlgError:
+                return False
+            x = x - step
+            if np.linalg.norm(step) <= 1e-14 * (1 + np.linalg.norm(x)):
+                break
+        else:
+            return False
+        slack = [float(hi - lo) / 20 for lo, hi in box]
+        if not all(float(lo) - s <= v <= float(hi) + s for (lo, hi), s, v in zip(box, slack, x)):
+            return False
+        for z in self.zeros:
+            if all(float(lo) <= v <= float(hi) for (lo, hi), v in zip(z.box, x)):
+                return False
+        zero = self._certify_zero(x)
+        if zero is None:
+            self.abort = self.wide
+            return False
+        self.zeros.append(zero)
+        return True
+
+    def _certify_zero(self, x: np.ndarray) -> Zero | None:
+        """Return a zero with a uniqueness box grown as far as the Krawczyk test allows."""
+        problem, ar = self.problem, self.ar
+        try:
+            with ar.active():
+                _, jc = evaluate(problem.tape, ar, [ar.const(Fraction(float(v))) for v in x],
+                                 self.p_iv, 1)
+            jf = np.array([[float(v.mid()) for v in row] for row in jc])
+            if self.model.kind == "map":
+                jf = jf - np.eye(len(x))
+            precond = to_exact(np.linalg.inv(jf))
+            centre = [Fraction(float(v)) for v in x]
+            box, _ = _inflate(problem, ar, self.pbox, centre, precond)
+        except (Undecided, DomainError, np.linalg.LinAlgError, ValueError):
+            return None
+        if any(self._meets(box, z.box) for z in self.zeros):
+            return None
+        radius = [hi - c for (lo, hi), c in zip(box, centre)]
+        scale = [w / 4 for w in self.widths]
+        for step in range(GROWTH_STEPS):
+            trial_r = [max(r * 2, s / 2 ** (GROWTH_STEPS - step)) for r, s in zip(radius, scale)]
+            trial = [(c - r, c + r) for c, r in zip(centre, trial_r)]
+            if any(self._meets(trial, z.box) for z in self.zeros):
+                break
+            try:
+                with ar.active():
+                    image, _ = krawczyk_image(problem, ar, self.pbox, centre, trial, precond)
+                    kb = [ar.bounds(k) for k in image]
+            except DomainError:
+                break
+            if not all(b[0] < lo and hi < b[1] for b, (lo, hi) in zip(trial, kb)):
+                break
+            box, radius = trial, trial_r
+        entry = {"centre": [_q(c) for c in centre], "box": [[_q(lo), _q(hi)] for lo, hi in box],
+                 "preconditioner": [[_q(v) for v in row] for row in precond]}
+        zero = Zero(entry=entry, box=box)
+        try:
+            piece = certify_piece(problem, self.pbox, x, 53)
+            tight = [(Fraction(lo), Fraction(hi)) for lo, hi in piece["box"]]
+            if all(lo <= t_lo and t_hi <= hi for (lo, hi), (t_lo, t_hi) in zip(box, tight)):
+                from ..check import exact
+
+                entry["classification"] = {k: piece[k] for k in
+                                           ("centre", "box", "preconditioner", "inertia_matrix")}
+                s = [[Fraction(v) for v in row] for row in piece["inertia_matrix"]]
+                entry["classification"]["stable_dimension"] = exact.inertia(s)[0]
+        except Undecided:
+            pass
+        return zero
+
+    @staticmethod
+    def _meets(a: list[Interval], b: list[Interval]) -> bool:
+        return all(lo <= b_hi and b_lo <= hi for (lo, hi), (b_lo, b_hi) in zip(a, b))
+
+    def _krawczyk_empty(self, box: list[Interval]) -> dict | None:
+        """Return an 'empty' hint when the Krawczyk image of the box misses it."""
+        ar, problem = self.ar, self.problem
+        centre = [(lo + hi) / 2 for lo, hi in box]
+        try:
+            with ar.active():
+                _, jc = evaluate(problem.tape, ar, [ar.const(c) for c in centre], self.p_iv, 1)
+                jf = np.array([[float(v.mid()) for v in row] for row in jc])
+                if self.model.kind == "map":
+                    jf = jf - np.eye(len(box))
+                precond = to_exact(np.linalg.inv(jf))
+                image, _ = krawczyk_image(problem, ar, self.pbox, centre, box, precond)
+                kb = [ar.bounds(k) for k in image]
+        except (DomainError, np.linalg.LinAlgError, ValueError):
+            return None
+        if any(k_hi < lo or hi < k_lo for (lo, hi), (k_lo, k_hi) in zip(box, kb)):
+            return {"empty": {"centre": [_q(c) for c in centre],
+                              "preconditioner": [[_q(v) for v in row] for row in precond]}}
+        return None
+
+
+PIECE_BOXES = 2000  # boxes one parameter piece may use before its box is cut instead
+MIN_PIECE = Fraction(1, 2**12)  # narrowest parameter piece, relative to the requested box
+
+
+def scan(model: Model, region: dict[str, Interval] | None = None,
+         max_boxes: int = DEFAULT_MAX_BOXES, time_limit: float = DEFAULT_TIME_LIMIT,
+         progress=None, arithmetics: tuple[str, ...] = ("flint",)) -> ScanResult:
+    """Return the certified number of equilibria (fixed points) of the model in the region.
+
+    For a parameter box the count must hold for every parameter in it: when one proof does not
+    cover the box (a zero's branch moves too far for one Krawczyk box), the parameter box is
+    cut into pieces, each scanned on its own; the count and the kinds of zeros must agree.
+    """
+    region = dict(region or model.region or {})
+    b = [region[v] for v in model.variables]
+    start, deadline = time.monotonic(), time.monotonic() + time_limit
+    problem = problem_of(model)
+    full = [model.parameters[p] for p in problem.params]
+    widths = [hi - lo for lo, hi in full]
+    todo, pieces, done = [full], [], 0
+    result = ScanResult(model=model, region=region, count=None, reason=None, message="")
+    first_zeros: list[Zero] | None = None
+    while todo:
+        pbox = todo.pop()
+        rel = [(hi - lo) / w if w else Fraction(0) for (lo, hi), w in zip(pbox, widths)]
+        can_cut = bool(rel) and max(rel) > MIN_PIECE
+        budget = min(PIECE_BOXES, max_boxes - done) if can_cut else max_boxes - done
+        scanner = _Scanner(model, b, pbox, budget, deadline, progress, done)
+        tree = scanner.run()
+        done = scanner.done
+        if scanner.undecided and can_cut and time.monotonic() < deadline and done < max_boxes:
+            k = max(range(len(rel)), key=lambda i: rel[i])
+            lo, hi = pbox[k]
+            mid = (lo + hi) / 2
+            todo += [pbox[:k] + [(mid, hi)] + pbox[k + 1:], pbox[:k] + [(lo, mid)] + pbox[k + 1:]]
+            continue
+        outcome = _finish(scanner, b, tree, pbox, problem.params)
+        if outcome is not None:
+            result.reason, result.message = outcome
+            result.zeros, result.undecided_boxes = scanner.zeros, scanner.undecided
+            result.boxes, result.seconds = done, time.monotonic() - start
+            if len(pieces) or todo:
+                result.message += " (in the parameter piece " + ", ".join(
+                    f"{p}=[{float(lo):.6g}, {float(hi):.6g}]"
+                    for p, (lo, hi) in zip(problem.params, pbox)) + ")"
+            return result
+        pieces.append({"parameters": {p: [_q(lo), _q(hi)] for p, (lo, hi) in
+                                      zip(problem.params, pbox)},
+                       "zeros": [z.entry for z in scanner.zeros], "tree": tree})
+        if first_zeros is None:
+            first_zeros = scanner.zeros
+    result.boxes, result.seconds = done, time.monotonic() - start
+    result.zeros = first_zeros or []
+    counts = {sum(1 for z in _inside_flags(p, b)) for p in pieces}
+    if len(counts) > 1:
+        result.reason = "count-varies"
+        result.message = ("the number of equilibria in the region differs between parts of the "
+                          "parameter box (a zero crosses the border of the region)")
+        return result
+    dims = _dims(pieces[0], b)
+    claim = {"verdict": "count", "count": len(dims), "stable_dimensions": dims}
+    cert = certificate(model, 1, 53, claim, [])
+    cert["region"] = {v: [_q(lo), _q(hi)] for v, (lo, hi) in zip(model.variables, b)}
+    cert["pieces"] = pieces
+    try:
+        for name in arithmetics:
+            verified = check(cert, name)
+    except CertificateRejected as exc:
+        result.reason, result.message = "precision-limit", f"the checker refused: {exc}"
+        return result
+    for z, derived in zip(result.zeros, verified.claim["zeros"]):
+        z.inside, z.stable_dimension = derived["inside"], derived["stable_dimension"]
+        z.enclosure = derived["enclosure"]
+    result.count, result.certificate = verified.claim["count"], cert
+    result.pieces = len(pieces)
+    return result
+
+
+def _tight(entry: dict) -> list[Interval]:
+    return [(Fraction(lo), Fraction(hi)) for lo, hi in entry.get("classification", entry)["box"]]
+
+
+def _inside_flags(piece: dict, b: list[Interval]):
+    for entry in piece["zeros"]:
+        if all(lo <= e_lo and e_hi <= hi for (lo, hi), (e_lo, e_hi) in zip(b, _tight(entry))):
+            yield entry
+
+
+def _dims(piece: dict, b: list[Interval]) -> list:
+    dims = []
+    for entry in _inside_flags(piece, b):
+        c = entry.get("classification")
+        dims.append(None if c is None else c["stable_dimension"])
+    return sorted(dims, key=lambda d: (d is None, d))
+
+
+def _finish(scanner: _Scanner, b, tree, pbox, params) -> tuple[str, str] | None:
+    """Return (reason, message) when this piece cannot give a certified count, else None."""
+    if scanner.undecided:
+        budget = time.monotonic() > scanner.deadline or scanner.done - scanner.start > \
+            scanner.max_boxes
+        return ("budget" if budget else "undecided-boxes",
+                f"{len(scanner.undecided)} boxes stayed undecided " +
+                ("(the budget ran out)" if budget else
+                 "(near a singular zero, or a zero the search could not certify)"))
+    border = 0
+    for z in scanner.zeros:
+        t = _tight(z.entry)
+        inside = all(lo <= e_lo and e_hi <= hi for (lo, hi), (e_lo, e_hi) in zip(b, t))
+        outside = any(e_hi < lo or hi < e_lo for (lo, hi), (e_lo, e_hi) in zip(b, t))
+        z.enclosure = t
+        z.inside = inside if (inside or outside) else None
+        z.stable_dimension = z.entry.get("classification", {}).get("stable_dimension")
+        border += z.inside is None
+    if border:
+        return "on-boundary", (f"{border} zero(s) on or too near the border of the region to "
+                               "say whether they are in it; widen or shift the region")
+    return None
