@@ -144,6 +144,20 @@ def scan(model: Model | str | Path, region: dict[str, Interval] | None = None,
     region = region or model.region
     if not region:
         raise InputError("no region: give one or a [region] table", model.source, "region")
+    from .model import parse_value
+
+    exact_region = {}
+    for v in model.variables:
+        if v not in region:
+            raise InputError(f"the region has no side for '{v}'", model.source, "region")
+        lo, hi = region[v]
+        ends = [x if isinstance(x, Fraction) else parse_value(x, model.source, "region")[0]
+                for x in (lo, hi)]
+        if ends[0] >= ends[1]:
+            raise InputError(f"the side for '{v}' is empty or has width 0", model.source,
+                             "region")
+        exact_region[v] = (ends[0], ends[1])
+    region = exact_region
     return run_scan(model, region, max_boxes, time_limit, progress, arithmetics)
 
 

@@ -19,7 +19,7 @@ HERE = Path(__file__).resolve().parent
 sys.path.insert(0, str(HERE.parent))
 
 from certify import equilibrium, load_model, make_model  # noqa: E402
-from certify.api import write_certificate  # noqa: E402
+from certify.api import scan, write_certificate  # noqa: E402
 
 BOTH = ("flint", "python")
 
@@ -61,6 +61,19 @@ CASES = [
     ("transcendental", make_model(
         ["u", "v"], ["exp(-u) - v + sin(v)/4", "atan(u) - sqrt(v) + tanh(u*v)/5 + log(1 + v)/9"],
         {}, name="transcendental"), [{"u": 0.5, "v": 0.5}], 1),
+]
+
+
+COUNTS = [
+    ("chemostat-count", load_model(HERE.parent / "examples" / "chemostat.toml")),
+    ("fishery-count", load_model(HERE.parent / "examples" / "fishery.toml")),
+    ("seasonal-map-count", load_model(HERE.parent / "examples" / "seasonal-map.toml")),
+    ("lorenz-rho28-count", lorenz(28).with_region(
+        {"x": (-30, 30), "y": (-30, 30), "z": (-10, 60)})),
+    ("circle-hyperbola-count", make_model(["x", "y"], ["x**2 + y**2 - 4", "x*y - 1"], {},
+                                          region={"x": ["-3", "3"], "y": ["-3", "3"]})),
+    ("saddle-node-box-count", make_model(["x"], ["mu - x**2"], {"mu": ["1/4", "1"]},
+                                         region={"x": ["-2", "2"]})),
 ]
 
 
@@ -123,6 +136,29 @@ def tampered(valid: dict[str, dict]) -> list[tuple[str, object, str, str]]:
     edit("not-hyperbolic-source", hopf, lambda d: (d["model"]["parameters"].__setitem__(
         "b", ["3", "3"]), d["claim"].__setitem__("point", ["1", "3"])), "hyperbolic",
         "b = 3: the exact equilibrium (1, 3) is a source, not on the axis")
+    count = valid["circle-hyperbola-count"]
+
+    def drop_leaf(doc):
+        node = doc["pieces"][0]["tree"]
+        while "split" in node:
+            parent, node = node, node["low"]
+        parent["low"] = {}
+
+    edit("count-leaf-removed", count, drop_leaf, "malformed", "a leaf of the tree removed")
+    edit("count-claim-five", count, lambda d: d["claim"].update(
+        count=5, stable_dimensions=d["claim"]["stable_dimensions"] + [0]), "count",
+        "one equilibrium too many claimed")
+
+    def shrink_zero(doc):
+        z = doc["pieces"][0]["zeros"][0]
+        c = [Fraction(v) for v in z["centre"]]
+        z["box"] = [[str(ci - Fraction(1, 10**20)), str(ci + Fraction(1, 10**20))] for ci in c]
+
+    edit("count-zero-box-shrunk", count, shrink_zero, "krawczyk",
+         "a uniqueness box shrunk below its Krawczyk image")
+    edit("count-zero-on-border", count, lambda d: d["region"].__setitem__(
+        "x", [d["region"]["x"][0], d["pieces"][0]["zeros"][0]["centre"][0]]), "on-boundary",
+        "the region cut through a zero's enclosure")
     out.append(("not-json", "this is not JSON {", "malformed", "not JSON"))
     out.append(("deep-nesting", "[" * 100000 + "]" * 100000, "malformed", "nesting 10^5 deep"))
     out.append(("huge-number", '{"format": "certify-certificate", "version": 1, "precision": 5'
@@ -144,6 +180,12 @@ def main() -> None:
                 raise SystemExit(f"{name}-{k}: {r.verdict} ({r.reason}): {r.message}")
             valid[f"{name}-{k}"] = r.certificate
             write_certificate(r.certificate, valid_dir / f"{name}-{k}.cert.json")
+    for name, model in COUNTS:
+        r = scan(model, arithmetics=BOTH)
+        if r.certificate is None:
+            raise SystemExit(f"{name}: {r.reason}: {r.message}")
+        valid[name] = r.certificate
+        write_certificate(r.certificate, valid_dir / f"{name}.cert.json")
     manifest = {}
     for name, content, code, why in tampered(valid):
         path = invalid_dir / f"{name}.cert.json"

@@ -34,7 +34,9 @@ def test_valid_corpus_verifies_with_both_arithmetics_from_the_command_line():
 def test_valid_files_match_the_schema_and_both_arithmetics_agree(path):
     data = load(path.read_bytes())
     jsonschema.validate(data, SCHEMA)
-    assert check(data, "flint").claim == check(data, "python").claim
+    def summary(claim):  # enclosures depend on the arithmetic's rounding; verdicts must not
+        return {k: v for k, v in claim.items() if k not in ("zeros", "point")}
+    assert summary(check(data, "flint").claim) == summary(check(data, "python").claim)
 
 
 @pytest.mark.parametrize("name", sorted(MANIFEST))

@@ -234,3 +234,132 @@ def test_exact_division_and_interval_parameters_in_a_not_hyperbolic_claim():
     with pytest.raises(CertificateRejected) as info:
         check(doc)
     assert info.value.code == "not-exact"
+
+
+# ------------------------------------------------------------------ count certificates
+
+
+@pytest.fixture(scope="module")
+def circle_count():
+    from certify import make_model
+    from certify.api import scan
+
+    m = make_model(["x", "y"], ["x**2 + y**2 - 4", "x*y - 1"], {},
+                   region={"x": ["-3", "3"], "y": ["-3", "3"]})
+    cert = scan(m).certificate
+    assert cert is not None
+    return cert
+
+
+def _leaves(node, path=()):
+    if "split" in node:
+        yield from _leaves(node["low"], path + ("low",))
+        yield from _leaves(node["high"], path + ("high",))
+    else:
+        yield path, node
+
+
+def _replace_leaf(doc, kind, new):
+    tree = doc["pieces"][0]["tree"]
+    path, _ = next((p, n) for p, n in _leaves(tree) if kind in n)
+    node = tree
+    for key in path[:-1]:
+        node = node[key]
+    if path:
+        node[path[-1]] = new(node[path[-1]])
+    else:
+        doc["pieces"][0]["tree"] = new(tree)
+
+
+def _count_code(doc):
+    with pytest.raises(CertificateRejected) as info:
+        check(doc)
+    return info.value.code
+
+
+def test_count_refusals(circle_count, monkeypatch):
+    from certify.check import region
+
+    base = circle_count
+    zero0 = base["pieces"][0]["zeros"][0]
+    cases = []
+    d = copy.deepcopy(base)
+    d["pieces"] = []
+    cases.append((d, "malformed"))
+    d = copy.deepcopy(base)
+    c = d["pieces"][0]["zeros"][0]["classification"]
+    c.update(centre=zero0["centre"], preconditioner=zero0["preconditioner"],
+             box=[[lo, str(F(hi) + F(1, 2**200))] for lo, hi in zero0["box"]])
+    cases.append((d, "count"))  # a classification box reaching outside the uniqueness box
+    d = copy.deepcopy(base)
+    d["region"]["x"] = [d["region"]["x"][0], zero0["centre"][0]]
+    cases.append((d, "on-boundary"))
+    d = copy.deepcopy(base)
+    d["pieces"][0]["zeros"].append(copy.deepcopy(zero0))
+    cases.append((d, "count"))
+    d = copy.deepcopy(base)
+    d["pieces"][0]["tree"]["at"] = d["region"]["x"][0]
+    cases.append((d, "tiling"))
+    d = copy.deepcopy(base)
+    _replace_leaf(d, "exclude", lambda leaf: {"zero": 0})
+    cases.append((d, "count"))
+    d = copy.deepcopy(base)
+    _replace_leaf(d, "zero", lambda leaf: {"exclude": 0})
+    cases.append((d, "count"))
+    d = copy.deepcopy(base)
+    _replace_leaf(d, "empty", lambda leaf: {"empty": {**leaf["empty"], "centre": ["9", "9"]}})
+    cases.append((d, "count"))
+    d = copy.deepcopy(base)
+    _replace_leaf(d, "empty", lambda leaf: {"empty": {**leaf["empty"], "preconditioner": [
+        ["0", "0"], ["0", "0"]]}})
+    cases.append((d, "count"))
+    for doc, code in cases:
+        got = _count_code(doc)
+        assert code is None or got == code, (code, got)
+    monkeypatch.setattr(region, "MAX_DEPTH", 1)
+    assert _count_code(copy.deepcopy(base)) == "malformed"
+    monkeypatch.setattr(region, "MAX_ZEROS", 1)
+    assert _count_code(copy.deepcopy(base)) == "malformed"
+
+
+def test_count_with_an_unclassified_zero(circle_count):
+    d = copy.deepcopy(circle_count)
+    zero = d["pieces"][0]["zeros"][0]
+    dim = zero.pop("classification")["stable_dimension"]
+    dims = list(d["claim"]["stable_dimensions"])
+    dims.remove(dim)
+    d["claim"]["stable_dimensions"] = dims + [None]
+    assert check(d).claim["stable_dimensions"] == dims + [None]
+
+
+def test_count_pieces_and_domain():
+    from certify.check.certificate import FORMAT
+
+    def doc(rhs, region, mu=("1", "1"), piece_mu=None):
+        return {"format": FORMAT, "version": 1, "precision": 53,
+                "model": {"kind": "flow", "variables": ["x"], "parameters": {"mu": list(mu)},
+                          "equations": {"x": rhs}},
+                "claim": {"verdict": "count", "count": 0, "stable_dimensions": []},
+                "region": {"x": region},
+                "pieces": [{"parameters": {"mu": list(piece_mu or mu)}, "zeros": [],
+                            "tree": {"exclude": 0}}]}
+
+    assert check(doc("log(x + 2) + 5*mu", ["-1", "1"])).claim["count"] == 0
+    assert _count_code(doc("log(x + 2) + 5*mu", ["-3", "1"])) == "domain"
+    assert _count_code(doc("x + 5*mu", ["-1", "1"], ("1", "2"), ("0", "2"))) == "tiling"
+
+
+def test_count_zero_limit(monkeypatch):
+    from certify.check import region
+
+    base = json.loads(json.dumps({"format": "certify-certificate", "version": 1,
+                                  "precision": 53, "model": {
+                                      "kind": "flow", "variables": ["x"], "parameters": {},
+                                      "equations": {"x": "x + 5"}},
+                                  "claim": {"verdict": "count", "count": 0,
+                                            "stable_dimensions": []},
+                                  "region": {"x": ["-1", "1"]},
+                                  "pieces": [{"parameters": {}, "zeros": [{}, {}],
+                                              "tree": {"exclude": 0}}]}))
+    monkeypatch.setattr(region, "MAX_ZEROS", 1)
+    assert _count_code(base) == "malformed"

@@ -27,6 +27,9 @@ from certify.model.symbolic import to_sympy
 
 CORPUS = sorted((Path(__file__).resolve().parent.parent / "proofs" / "valid").glob("*.cert.json"))
 BASES = [json.loads(p.read_text()) for p in CORPUS]
+COUNT_BASES = [b for b in BASES if b["claim"]["verdict"] == "count"
+               and b["model"]["equations"] == {"x": "x**2 + y**2 - 4", "y": "x*y - 1"}]
+BASES = [b for b in BASES if b["claim"]["verdict"] != "count"]
 COUNTS = {"tried": 0, "rejected": 0, "accepted": 0}
 MUTANTS = 1200
 
@@ -175,6 +178,53 @@ def test_mutants_are_rejected_or_still_prove_their_claim(doc):
         _rederive_hyperbolic(doc, verified)
     else:
         _rederive_not_hyperbolic(doc)
+
+
+def _all_strings(node, out):
+    if isinstance(node, list):
+        for i, v in enumerate(node):
+            (out.append((node, i)) if isinstance(v, str) else _all_strings(v, out))
+    elif isinstance(node, dict):
+        for k, v in node.items():
+            if isinstance(v, str) and k == "at":
+                out.append((node, k))
+            elif not isinstance(v, str):
+                _all_strings(v, out)
+    return out
+
+
+@st.composite
+def count_mutants(draw):
+    doc = copy.deepcopy(draw(st.sampled_from(COUNT_BASES)))
+    spots = _all_strings(doc["pieces"], []) + _all_strings(doc["region"], [])
+    for _ in range(draw(st.integers(1, 3))):
+        box, key = draw(st.sampled_from(spots))
+        if draw(st.booleans()):
+            box[key] = _step(box[key], draw(st.booleans()))
+        else:
+            q = draw(st.fractions(min_value=-4, max_value=4, max_denominator=16))
+            box[key] = f"{q.numerator}/{q.denominator}"
+    return doc
+
+
+@settings(max_examples=300, deadline=None, suppress_health_check=list(HealthCheck))
+@given(count_mutants())
+def test_count_mutants_are_rejected_or_count_correctly(doc):
+    """Accepted count mutants must state the number of real solutions in the region (sympy)."""
+    COUNTS["tried"] += 1
+    try:
+        verified = check(doc, "flint")
+    except CertificateRejected:
+        COUNTS["rejected"] += 1
+        return
+    COUNTS["accepted"] += 1
+    x, y = sp.symbols("x y", real=True)
+    region = {v: (F(lo), F(hi)) for v, (lo, hi) in doc["region"].items()}
+    solutions = sp.solve([x**2 + y**2 - 4, x * y - 1], [x, y], dict=True)
+    inside = [s for s in solutions
+              if region["x"][0] <= s[x] <= region["x"][1]
+              and region["y"][0] <= s[y] <= region["y"][1]]
+    assert verified.claim["count"] == len(inside)
 
 
 def test_mutation_count():
