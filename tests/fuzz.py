@@ -60,7 +60,7 @@ def certificate_target(data: bytes) -> None:
     start = time.perf_counter()
     try:
         verified = check(load(data), "flint")
-        if verified.claim["verdict"] not in ("hyperbolic", "not hyperbolic"):
+        if verified.claim["verdict"] not in ("hyperbolic", "not hyperbolic", "count"):
             raise AssertionError("accepted an unknown claim")
     except CertificateRejected:
         pass
