@@ -5,6 +5,7 @@
     python benchmarks/run.py certify    certified equilibria against float Newton + eigvals
     python benchmarks/run.py verify     the checker: cold process time, warm throughput
     python benchmarks/run.py widths     enclosure widths of the two arithmetics' functions
+    python benchmarks/run.py scan       certified counts vs multi-start float Newton
 
 Targets (issues): certification of Lorenz C+ at most 10x float Newton + eigvals.
 """
@@ -121,6 +122,37 @@ def bench_verify() -> None:
         print(f"  warm, {arithmetic:6s}: {1 / t:7.0f} certificates per second")
 
 
+def bench_scan() -> None:
+    from certify.api import scan
+
+    print("certified scan (every equilibrium in a region) vs multi-start float Newton")
+    lorenz = LORENZ.with_region({"x": (Fraction(-30), Fraction(30)), "y": (Fraction(-30),
+                                Fraction(30)), "z": (Fraction(-10), Fraction(60))})
+    nine = make_model(["x", "y"], ["x - x**3", "y - y**3"], {},
+                      region={"x": ["-1.5", "1.5"], "y": ["-1.5", "1.5"]})
+    for name, model, per_side in [("Lorenz, rho = 28", lorenz, 20), ("9-zero system", nine, 20)]:
+        t = time.perf_counter()
+        r = scan(model)
+        t_scan = time.perf_counter() - t
+        fs = FloatSystem(model)
+        sides = [np.linspace(float(lo), float(hi), per_side) for lo, hi in
+                 (model.region[v] for v in model.variables)]
+        starts = np.stack(np.meshgrid(*sides), -1).reshape(-1, model.dimension)
+        t = time.perf_counter()
+        found = []
+        for x0 in starts:
+            try:
+                x = newton(fs, "flow", 1, x0, iterations=40)
+            except Exception:
+                continue
+            if not any(np.linalg.norm(x - y) < 1e-8 for y in found):
+                found.append(x)
+        t_float = time.perf_counter() - t
+        print(f"  {name:18s} certified count {r.count} in {t_scan:6.2f} s ({r.boxes} boxes, "
+              f"{r.boxes / t_scan:7.0f} boxes/s)   float multi-start ({len(starts)} starts) "
+              f"found {len(found)} in {t_float:6.2f} s   ratio {t_scan / t_float:5.2f}x")
+
+
 def bench_widths() -> None:
     from certify.check.dyadic import DyadicArithmetic
 
@@ -137,7 +169,7 @@ def bench_widths() -> None:
 
 
 if __name__ == "__main__":
-    which = sys.argv[1:] or ["eval", "certify", "verify", "widths"]
+    which = sys.argv[1:] or ["eval", "certify", "verify", "widths", "scan"]
     if "eval" in which:
         bench_eval()
     if "certify" in which:
@@ -146,3 +178,5 @@ if __name__ == "__main__":
         bench_verify()
     if "widths" in which:
         bench_widths()
+    if "scan" in which:
+        bench_scan()
