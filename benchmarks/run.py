@@ -6,6 +6,7 @@
     python benchmarks/run.py verify     the checker: cold process time, warm throughput
     python benchmarks/run.py widths     enclosure widths of the two arithmetics' functions
     python benchmarks/run.py scan       certified counts vs multi-start float Newton
+    python benchmarks/run.py branches   one-piece widths and sweep proofs: plain vs first-order
 
 Targets (issues): certification of Lorenz C+ at most 10x float Newton + eigvals.
 """
@@ -153,6 +154,60 @@ def bench_scan() -> None:
               f"found {len(found)} in {t_float:6.2f} s   ratio {t_scan / t_float:5.2f}x")
 
 
+def _one_piece(model, guess, name, centre, width, first_order) -> bool:
+    from certify.search.equilibrium import certify_guess
+
+    half = Fraction(width).limit_denominator(10**6) / 2
+    m = model.with_parameters({name: (centre - half, centre + half)})
+    a = certify_guess(m, guess, max_pieces=1, first_order=first_order)
+    return a.verdict == "hyperbolic"
+
+
+def _widest(model, guess, name, centre, first_order) -> float:
+    lo, hi = 1e-5, 8.0
+    if not _one_piece(model, guess, name, centre, lo, first_order):
+        return 0.0
+    for _ in range(14):
+        mid = (lo * hi) ** 0.5
+        lo, hi = (mid, hi) if _one_piece(model, guess, name, centre, mid, first_order) else \
+            (lo, mid)
+    return lo
+
+
+def bench_branches() -> None:
+    print("widest parameter box proved in one piece: plain intervals vs first-order forms")
+    bruss = make_model(["x", "y"], ["a - (b + 1)*x + x**2*y", "b*x - x**2*y"],
+                       {"a": 1, "b": "3/2"})
+    cases = [("Lorenz C+ rho = 21", LORENZ, {"x": 7, "y": 7, "z": 20}, "rho", Fraction(21)),
+             ("Lorenz C+ rho = 25", LORENZ, {"x": 8, "y": 8, "z": 24}, "rho", Fraction(25)),
+             ("Lorenz C+ rho = 28", LORENZ, {"x": 8, "y": 8, "z": 27}, "rho", Fraction(28)),
+             ("Brusselator b = 1.5", bruss, {"x": 1, "y": 1.5}, "b", Fraction(3, 2)),
+             ("Brusselator b = 2.5", bruss, {"x": 1, "y": 2.5}, "b", Fraction(5, 2)),
+             ("Brusselator b = 1.9", bruss, {"x": 1, "y": 1.9}, "b", Fraction(19, 10))]
+    for label, model, guess, name, centre in cases:
+        plain = _widest(model, guess, name, centre, False)
+        first = _widest(model, guess, name, centre, True)
+        print(f"  {label:22s} plain {plain:9.4g}   first-order {first:9.4g}   "
+              f"ratio {first / plain if plain else float('inf'):6.1f}x")
+    print("proofs for the 56-cell Lorenz sweep of C+ over rho in [2, 30] (the cell holding 470/19"
+          " skipped)")
+    from certify.search.equilibrium import certify_guess
+
+    for first_order in (False, True):
+        proofs, t = 0, time.perf_counter()
+        for k in range(56):
+            lo, hi = Fraction(2) + Fraction(k, 2), Fraction(2) + Fraction(k + 1, 2)
+            if lo <= Fraction(470, 19) <= hi:
+                continue
+            m = LORENZ.with_parameters({"rho": (lo, hi)})
+            z = float((lo + hi) / 2) - 1
+            x = (8 / 3 * z) ** 0.5
+            a = certify_guess(m, {"x": x, "y": x, "z": z}, first_order=first_order)
+            proofs += len(a.certificate["pieces"]) if a.certificate else 0
+        label = "first-order" if first_order else "plain      "
+        print(f"  {label} {proofs:6d} proofs in {time.perf_counter() - t:6.2f} s")
+
+
 def bench_widths() -> None:
     from certify.check.dyadic import DyadicArithmetic
 
@@ -169,7 +224,7 @@ def bench_widths() -> None:
 
 
 if __name__ == "__main__":
-    which = sys.argv[1:] or ["eval", "certify", "verify", "widths", "scan"]
+    which = sys.argv[1:] or ["eval", "certify", "verify", "widths", "scan", "branches"]
     if "eval" in which:
         bench_eval()
     if "certify" in which:
@@ -180,3 +235,5 @@ if __name__ == "__main__":
         bench_widths()
     if "scan" in which:
         bench_scan()
+    if "branches" in which:
+        bench_branches()

@@ -32,6 +32,7 @@ class EquilibriumResult:
     enclosure: dict[str, Interval] | None = None
     eigenvalues: list[dict] = field(default_factory=list)  # {"re": (lo, hi), "im": (lo, hi)}
     pieces: int = 0
+    first_order_pieces: int = 0  # pieces proved in the first-order branch form
     precision: int = DEFAULT_PRECISION
     certificate: dict | None = None
     certificate_path: str | None = None
@@ -51,11 +52,14 @@ def equilibrium(model: Model | str | Path, guesses: list[dict[str, float]] | Non
                 parameters: dict[str, Interval] | None = None, period: int = 1,
                 precision: int = DEFAULT_PRECISION,
                 max_precision: int = DEFAULT_MAX_PRECISION,
-                arithmetics: tuple[str, ...] = ("flint",)) -> list[EquilibriumResult]:
+                arithmetics: tuple[str, ...] = ("flint",),
+                first_order: bool = True) -> list[EquilibriumResult]:
     """Return one result per guess: a verdict proved by the checker, or undecided with a reason.
 
     arithmetics: the checker's arithmetics every verdict must pass in-process ("flint", the
     fast one, by default; add "python" for the independent standard-library one).
+    first_order: over parameter boxes, try the first-order branch form x~ + A (p - p_c) + E
+    before plain intervals (the default).
     """
     from .search.equilibrium import certify_guess  # numpy, scipy, sympy: only when searching
 
@@ -79,7 +83,8 @@ def equilibrium(model: Model | str | Path, guesses: list[dict[str, float]] | Non
                 f"'{extra[0]}' is not a variable"
             raise InputError(what, model.source, "--guess")
     return [_result(model, certify_guess(model, g, period, precision, max_precision,
-                                         arithmetics=arithmetics), period) for g in guesses]
+                                         arithmetics=arithmetics, first_order=first_order),
+                    period) for g in guesses]
 
 
 def _result(model: Model, attempt, period: int) -> EquilibriumResult:
@@ -95,6 +100,8 @@ def _result(model: Model, attempt, period: int) -> EquilibriumResult:
                                                                    ver.enclosures))
                      for i, v in enumerate(model.variables)}
     res.pieces = ver.pieces
+    res.first_order_pieces = sum(1 for p in (attempt.certificate or {}).get("pieces", [])
+                                 if "sensitivity" in p)
     if ver.claim["verdict"] == "hyperbolic":
         res.stable_dimension = ver.claim["stable_dimension"]
         res.unstable_dimension = ver.claim["unstable_dimension"]

@@ -48,7 +48,10 @@ CASES = [
     ("seasonal-map-period2", load_model(HERE.parent / "examples" / "seasonal-map.toml"), None, 2),
     ("lorenz-rho28", lorenz(28), [{"x": 0.1, "y": 0.1, "z": 0.1}, {"x": 8, "y": 8, "z": 27}], 1),
     ("lorenz-rho1", lorenz(1), [{"x": 0.01, "y": 0.01, "z": 0.01}], 1),
-    ("lorenz-c-plus-rho21-box", lorenz(["21", "21.25"]), [{"x": 6.6, "y": 6.6, "z": 20}], 1),
+    ("lorenz-c-plus-rho20-24-box", lorenz(["20", "24"]), [{"x": 7, "y": 7, "z": 21}], 1),
+    ("lorenz-c-plus-rho27-29-branch", lorenz(["27", "29"]), [{"x": 8, "y": 8, "z": 27}], 1),
+    ("lorenz-c-plus-rho21-23-branch", lorenz(["21", "23"]), [{"x": 7, "y": 7, "z": 21}], 1),
+    ("logistic-r2.4-2.6-branch", logistic(["2.4", "2.6"]), [{"x": 0.6}], 1),
     ("brusselator-sink", brusselator("3/2"), [{"x": 1.1, "y": 1.4}], 1),
     ("brusselator-source", brusselator("5/2"), [{"x": 1.1, "y": 2.4}], 1),
     ("brusselator-hopf", brusselator(2), [{"x": 1.1, "y": 1.9}], 1),
@@ -125,11 +128,20 @@ def tampered(valid: dict[str, dict]) -> list[tuple[str, object, str, str]]:
          "an unknown key")
     edit("dimension-absurd", saddle, lambda d: d["model"].__setitem__(
         "variables", [f"x{i}" for i in range(1000)]), "malformed", "1000 variables")
-    box_cert = valid["lorenz-c-plus-rho21-box-1"]
+    box_cert = valid["lorenz-c-plus-rho20-24-box-1"]
+    assert len(box_cert["pieces"]) > 1, "the piece-removal case needs several pieces"
     edit("piece-removed", box_cert, lambda d: d["pieces"].pop(), "tiling",
          "one piece of the parameter cover removed")
     edit("piece-duplicated", box_cert, lambda d: d["pieces"].append(d["pieces"][0]), "tiling",
          "one piece listed twice")
+    branch = valid["lorenz-c-plus-rho27-29-branch-1"]
+    edit("branch-sensitivity-reversed", branch, lambda d: d["pieces"][0].__setitem__(
+        "sensitivity", [[_neg(v) for v in row] for row in d["pieces"][0]["sensitivity"]]),
+        "krawczyk", "the first-order branch running the wrong way")
+    edit("branch-parameter-widened", branch, lambda d: (
+        d["model"]["parameters"].__setitem__("rho", ["24", "29"]),
+        d["pieces"][0]["parameters"].__setitem__("rho", ["24", "29"])), "krawczyk",
+        "the branch claimed across the Hopf value 470/19")
     hopf = valid["brusselator-hopf-1"]
     edit("not-hyperbolic-moved", hopf, lambda d: d["claim"].__setitem__("point", ["1", "201/100"]),
          "not-zero", "the claimed exact equilibrium moved")

@@ -15,6 +15,7 @@ from fractions import Fraction
 
 from . import exact
 from .ad import evaluate
+from .affine import AffineArithmetic, branch_krawczyk, vertex_matrices
 from .arith import ArbArithmetic, DomainError, ExactArithmetic
 from .expr import ExpressionError, Tape, parse_expression
 
@@ -202,7 +203,8 @@ def check(data: dict, arithmetic: str = "flint") -> Verified:
     enclosures, boxes = [], []
     for i, piece in enumerate(pieces):
         where = f"pieces[{i}]"
-        _dict(piece, {"parameters", "centre", "box", "preconditioner", "inertia_matrix"}, where)
+        _dict(piece, {"parameters", "centre", "box", "preconditioner", "inertia_matrix"}, where,
+              {"sensitivity"})
         pp = _dict(piece["parameters"], set(params), f"{where}.parameters")
         piece_box = [_interval(pp[p], f"{where}.parameters.{p}") for p in params]
         for p, (lo, hi) in zip(params, piece_box):
@@ -217,8 +219,18 @@ def check(data: dict, arithmetic: str = "flint") -> Verified:
         precond = _matrix(piece["preconditioner"], n, f"{where}.preconditioner")
         s = _matrix(piece["inertia_matrix"], n, f"{where}.inertia_matrix")
         with ar.active():
-            enclosure, jac = _check_krawczyk(ctx, ar, piece_box, centre, box, precond, where)
-            check_inertia(ctx, ar, jac, s, stable, where)
+            if "sensitivity" in piece:
+                sens = [[_rational(x, f"{where}.sensitivity[{a}][{b}]") for b, x in
+                         enumerate(_list(row, len(params), f"{where}.sensitivity[{a}]"))]
+                        for a, row in enumerate(_list(piece["sensitivity"], n,
+                                                      f"{where}.sensitivity"))]
+                enclosure, jac, aff = _check_branch(ctx, ar, piece_box, centre, box, sens,
+                                                    precond, where)
+                check_inertia(ctx, aff, jac, s, stable, where)
+            else:
+                enclosure, jac = _check_krawczyk(ctx, ar, piece_box, centre, box, precond,
+                                                 where)
+                check_inertia(ctx, ar, jac, s, stable, where)
         enclosures.append(enclosure)
     _check_tiling([pbox[p] for p in params], boxes)
     return Verified({"verdict": "hyperbolic", "stable_dimension": stable,
@@ -304,6 +316,31 @@ def _check_krawczyk(ctx: Problem, ar, pbox: Box, centre: list[Fraction], box: Bo
     return result, jac
 
 
+def _check_branch(ctx: Problem, ar, pbox: Box, centre, box: Box, sens, precond, where: str):
+    """Obligation 1 in first-order form (proofs/FORMAT.md): K(E) inside the interior of E.
+
+    Returns the enclosure of the branch over the piece (x~ + A (P - p_c) + K(E)), the affine
+    Jacobian and its arithmetic for the inertia test.
+    """
+    for j, ((lo, hi), c) in enumerate(zip(box, centre)):
+        if not lo <= c <= hi:
+            raise CertificateRejected("krawczyk", f"{where}.centre[{j}]", "found a centre "
+                                      "outside the box")
+    try:
+        image, e, jac, aff = branch_krawczyk(ctx, ar, pbox, centre, box, sens, precond)
+    except DomainError as exc:
+        raise CertificateRejected("domain", where, str(exc)) from None
+    enclosure = []
+    for j, ((k_lo, k_hi), (e_lo, e_hi)) in enumerate(zip(image, e)):
+        if not (e_lo < k_lo and k_hi < e_hi):
+            raise CertificateRejected("krawczyk", f"{where}.box[{j}]", "found K(E) = "
+                                      f"[{_approx(k_lo)}, {_approx(k_hi)}], expected a subset "
+                                      "of the interior of E = X - centre")
+        spread = sum(abs(a) * (hi - lo) / 2 for a, (lo, hi) in zip(sens[j], pbox))
+        enclosure.append((centre[j] - spread + k_lo, centre[j] + spread + k_hi))
+    return enclosure, jac, aff
+
+
 def _approx(q: Fraction) -> str:
     """Return a short decimal rendering of q for a message (never used to decide)."""
     try:
@@ -340,12 +377,20 @@ def check_inertia(ctx: Problem, ar, jac, s, stable: int, where: str) -> None:
     else:
         m = [[sa[i][j] - sum((jac[t][i] * sj[t][j] for t in range(n)), ar.const(Fraction(0)))
               for j in range(n)] for i in range(n)]
-    lo = [[Fraction(0)] * n for _ in range(n)]
-    hi = [[Fraction(0)] * n for _ in range(n)]
-    for i in range(n):
-        for j in range(i, n):
-            lo[i][j], hi[i][j] = _bounds(ar, m[i][j], where)
-    if not exact.interval_positive_definite(lo, hi):
+    if isinstance(ar, AffineArithmetic):
+        families = vertex_matrices(ar, m)
+    else:
+        lo = [[Fraction(0)] * n for _ in range(n)]
+        hi = [[Fraction(0)] * n for _ in range(n)]
+        for i in range(n):
+            for j in range(i, n):
+                lo[i][j], hi[i][j] = _bounds(ar, m[i][j], where)
+        families = [(lo, hi)]
+    try:
+        definite = all(exact.interval_positive_definite(lo, hi) for lo, hi in families)
+    except DomainError as exc:
+        raise CertificateRejected("domain", where, str(exc)) from None
+    if not definite:
         form = "-(J^T S + S J)" if ctx.kind == "flow" else "S - J^T S J"
         raise CertificateRejected("not-definite", f"{where}.inertia_matrix",
                                   f"could not prove {form} positive definite over J(X, P)")

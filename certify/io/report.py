@@ -115,8 +115,11 @@ def print_results(model: Model, results: list, caution: str) -> None:
                       "certificate):")
             for e in r.eigenvalues:
                 con.print(f"    {_complex_text(e)}")
-        if r.pieces > 1:
-            con.print(f"  proved for every parameter in the box, in {r.pieces} pieces")
+        if any(lo != hi for lo, hi in r.parameters.values()) and r.verdict == "hyperbolic":
+            how = (f"{r.first_order_pieces} in first-order branch form, "
+                   f"{r.pieces - r.first_order_pieces} with plain intervals")
+            con.print(f"  proved for every parameter in the box, in {r.pieces} piece"
+                      f"{'s' if r.pieces > 1 else ''} ({how})")
         if r.certificate_path:
             con.print(f"  certificate: {r.certificate_path} (passed the checker)")
     con.print()
@@ -146,7 +149,8 @@ def results_json(model: Model, results: list) -> dict:
                           if r.enclosure else None),
             "eigenvalues": [{"re": list(bounds_text(*e["re"])), "im": list(bounds_text(*e["im"]))}
                             for e in r.eigenvalues],
-            "pieces": r.pieces, "precision": r.precision,
+            "pieces": r.pieces, "first_order_pieces": r.first_order_pieces,
+            "precision": r.precision,
             "certificate": r.certificate_path})
     return {"model": model.source, "results": out}
 

@@ -16,6 +16,7 @@ import numpy as np
 from .. import __version__
 from ..check import exact
 from ..check.ad import evaluate
+from ..check.affine import branch_krawczyk
 from ..check.arith import ArbArithmetic, DomainError
 from ..check.certificate import (
     FORMAT,
@@ -30,7 +31,7 @@ from ..check.certificate import (
 )
 from ..model import Interval, Model
 from ..model.symbolic import FloatSystem
-from .inertia import inertia_matrix, to_exact
+from .inertia import common_inertia_matrix, inertia_matrix, to_exact
 
 from .settings import (DEFAULT_MAX_PRECISION, DEFAULT_PRECISION, INFLATION_ROUNDS, MAX_PIECES,
                        MIN_PIECE_FRACTION)
@@ -188,6 +189,109 @@ def certify_piece(problem: Problem, pbox: list[Interval], x: np.ndarray, prec: i
             "inertia_matrix": [[rational_text(v) for v in row] for row in s]}
 
 
+def certify_branch_piece(problem: Problem, system: FloatSystem, pbox: list[Interval],
+                         x: np.ndarray, prec: int) -> dict:
+    """Return a checked piece in first-order form: x(p) in x~ + A (p - p_c) + E.
+
+    A ~ -J^-1 df/dp at the parameter centre (central differences in floats: it only steers).
+    Raises Undecided.
+    """
+    n, k = len(x), len(pbox)
+    ar = ArbArithmetic(prec)
+    fx, jx = float_residual(system, problem.kind, problem.period, x)
+    dfdp = np.zeros((n, k))
+    for i, name in enumerate(problem.params):
+        lo, hi = pbox[i]
+        if lo == hi:
+            continue
+        h = 1e-6 * max(1.0, abs(float(lo + hi) / 2))
+        saved = system.point[name]
+        system.point[name] = saved + h
+        up, _ = float_residual(system, problem.kind, problem.period, x)
+        system.point[name] = saved - h
+        down, _ = float_residual(system, problem.kind, problem.period, x)
+        system.point[name] = saved
+        dfdp[:, i] = (up - down) / (2 * h)
+    try:
+        jinv = np.linalg.inv(jx)
+    except np.linalg.LinAlgError:
+        raise Undecided("no-enclosure", "the Jacobian is singular") from None
+    sens = to_exact(-jinv @ dfdp)
+    precond = to_exact(jinv)
+    centre = [Fraction(float(v)) for v in x]
+    tiny = Fraction(2) ** (-prec - 20)
+    try:
+        image, _, _, _ = branch_krawczyk(problem, ar, pbox, centre, [(c, c) for c in centre],
+                                         sens, precond)
+        radius = [max(abs(lo), abs(hi)) * 2 + abs(c) * Fraction(2) ** (-prec + 5) + tiny
+                  for (lo, hi), c in zip(image, centre)]
+        for _ in range(INFLATION_ROUNDS):
+            box = [(c - r, c + r) for c, r in zip(centre, radius)]
+            image, e, jac, aff = branch_krawczyk(problem, ar, pbox, centre, box, sens, precond)
+            if all(e_lo < lo and hi < e_hi for (lo, hi), (e_lo, e_hi) in zip(image, e)):
+                break
+            radius = [max(r, abs(lo), abs(hi)) * Fraction(3, 2) + tiny
+                      for r, (lo, hi) in zip(radius, image)]
+            if any(r > 1e3 * (1 + abs(c)) for r, c in zip(radius, centre)):
+                raise Undecided("box-too-wide", "the first-order branch form did not enclose")
+        else:
+            raise Undecided("box-too-wide", "the first-order branch form did not enclose")
+    except DomainError as exc:
+        raise Undecided("domain", str(exc)) from None
+    jmid = np.array([[float(v.c.mid()) for v in row] for row in jac])
+    s_float = inertia_matrix(jmid, problem.kind)
+    if s_float is None:
+        raise Undecided("near-axis", "no inertia matrix could be built")
+    s_exact = to_exact(s_float, 52)
+    for i in range(n):
+        for j in range(i):
+            s_exact[i][j] = s_exact[j][i]
+    s_exact = _checked_branch_inertia(problem, ar, aff, jac, s_float, s_exact)
+    return {"parameters": {p: [rational_text(lo), rational_text(hi)]
+                           for p, (lo, hi) in zip(problem.params, pbox)},
+            "centre": [rational_text(c) for c in centre],
+            "box": [[rational_text(lo), rational_text(hi)] for lo, hi in box],
+            "sensitivity": [[rational_text(v) for v in row] for row in sens],
+            "preconditioner": [[rational_text(v) for v in row] for row in precond],
+            "inertia_matrix": [[rational_text(v) for v in row] for row in s_exact]}
+
+
+def _checked_branch_inertia(problem, ar, aff, jac, s_float, s_exact):
+    """Return an inertia matrix the checker accepts over the branch, or raise Undecided.
+
+    First the midpoint's Lyapunov/Stein solution; then one improved to be definite at the
+    vertex Jacobians of the first-order form (a common Lyapunov matrix).
+    """
+    n = len(s_exact)
+    tries = [s_exact]
+    centre = np.array([[float(v.c.mid()) for v in row] for row in jac])
+    slopes = [np.array([[float(v.d[i].mid()) for v in row] for row in jac])
+              for i in range(aff.k)]
+    vertices = [centre]
+    for slope in slopes:
+        if np.any(slope):
+            vertices = [v + t * slope for v in vertices for t in (-1, 1)]
+    better = common_inertia_matrix(vertices, problem.kind, s_float) if len(vertices) > 1 else None
+    if better is not None:
+        s2 = to_exact(better, 52)
+        for i in range(n):
+            for j in range(i):
+                s2[i][j] = s2[j][i]
+        tries.append(s2)
+    reason = "no inertia matrix could be built"
+    for s in tries:
+        counts = exact.inertia(s)
+        if counts is None:
+            continue
+        try:
+            with ar.active():
+                check_inertia(problem, aff, jac, s, counts[0], "piece")
+            return s
+        except CertificateRejected as exc:
+            reason = exc.reason
+    raise Undecided("near-axis", f"hyperbolicity not proved over the branch ({reason})")
+
+
 def _inflate(problem: Problem, ar, pbox, centre, precond):
     """Return a box X with K(X, P) in its interior (epsilon-inflation, Rump 1980), and J(X, P)."""
     tiny = Fraction(2) ** (-ar.prec - 20)
@@ -237,7 +341,8 @@ def certify_guess(model: Model, guess: dict[str, float], period: int = 1,
                   precision: int = DEFAULT_PRECISION,
                   max_precision: int = DEFAULT_MAX_PRECISION,
                   max_pieces: int = MAX_PIECES,
-                  arithmetics: tuple[str, ...] = ("flint",)) -> Attempt:
+                  arithmetics: tuple[str, ...] = ("flint",),
+                  first_order: bool = True) -> Attempt:
     """Return the certified verdict for the equilibrium reached from one guess.
 
     The finished certificate must pass the checker in every arithmetic named (the fast one by
@@ -248,7 +353,8 @@ def certify_guess(model: Model, guess: dict[str, float], period: int = 1,
     x0 = np.array([guess[v] for v in model.variables], dtype=float)
     full = [model.parameters[p] for p in problem.params]
     try:
-        pieces, used = _cover(model, problem, full, x0, precision, max_precision, max_pieces)
+        pieces, used = _cover(model, problem, full, x0, precision, max_precision, max_pieces,
+                              first_order)
     except Undecided as exc:
         attempt.reason, attempt.message = exc.reason, exc.message
         if all(lo == hi for lo, hi in full):
@@ -288,7 +394,7 @@ def certificate(model: Model, period: int, precision: int, claim: dict,
     return cert
 
 
-def _cover(model, problem, full, x0, precision, max_precision, max_pieces):
+def _cover(model, problem, full, x0, precision, max_precision, max_pieces, first_order=True):
     """Return pieces covering the parameter box, bisecting where one proof does not suffice."""
     ladder = precisions(precision, max_precision)
     widths = [hi - lo for lo, hi in full]
@@ -299,9 +405,19 @@ def _cover(model, problem, full, x0, precision, max_precision, max_pieces):
         system = FloatSystem(model, dict(zip(problem.params, pbox)))
         x = newton(system, model.kind, problem.period, guess)
         failure = None
-        for prec in ladder:
+        wide = any(lo != hi for lo, hi in pbox)
+        # Over a proper parameter box the widths come from the box, not from rounding: more
+        # precision does not help there, cutting the box does.
+        for prec in ladder if not wide else ladder[:1]:
             try:
-                piece = certify_piece(problem, pbox, x, prec)
+                piece = None
+                if wide and first_order:  # first-order form first; plain where it fails
+                    try:
+                        piece = certify_branch_piece(problem, system, pbox, x, prec)
+                    except Undecided as exc:
+                        if exc.reason == "near-axis":  # plain intervals would be wider still
+                            raise
+                piece = piece or certify_piece(problem, pbox, x, prec)
                 break
             except Undecided as exc:
                 failure = exc

@@ -74,3 +74,38 @@ def _inertia_matrix(j: np.ndarray, kind: str) -> np.ndarray | None:
     if not np.all(np.isfinite(s)):
         return None
     return s / np.max(np.abs(s))
+
+
+def common_inertia_matrix(vertices: list[np.ndarray], kind: str, start: np.ndarray,
+                          max_dimension: int = 6) -> np.ndarray | None:
+    """Return S improved so that the form is definite at every vertex Jacobian, or None.
+
+    Maximises the smallest eigenvalue of -(J^T S + S J) (flows) or S - J^T S J (maps) over the
+    vertices by Nelder-Mead on the entries of S (normalised), starting from the midpoint's
+    Lyapunov or Stein solution: a small substitute for a semidefinite program, as steering.
+    """
+    import scipy.optimize as so
+
+    n = start.shape[0]
+    if n > max_dimension:
+        return None
+    iu = np.triu_indices(n)
+
+    def unpack(v):
+        s = np.zeros((n, n))
+        s[iu] = v
+        s = s + s.T - np.diag(np.diag(s))
+        return s / np.linalg.norm(s)
+
+    def form(j, s):
+        return -(j.T @ s + s @ j) if kind == "flow" else s - j.T @ s @ j
+
+    def worst(v):
+        s = unpack(v)
+        return -min(np.linalg.eigvalsh(form(j, s)).min() for j in vertices)
+
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        res = so.minimize(worst, start[iu], method="Nelder-Mead",
+                          options={"maxiter": 400 * n * n, "xatol": 1e-12, "fatol": 1e-14})
+    return unpack(res.x) if res.fun < 0 else None
