@@ -22,6 +22,18 @@ class DomainError(ArithmeticError):
         super().__init__(f"{reason} in '{what}'")
 
 
+def power_by_squaring(one, base, n: int):
+    """Return base**n for an integer n >= 0 by repeated squaring (one: the unit)."""
+    result = one
+    while n:
+        if n & 1:
+            result = result * base
+        n >>= 1
+        if n:
+            base = base * base
+    return result
+
+
 class ArbArithmetic:
     """Outward-rounded ball arithmetic from python-flint at an explicit precision in bits."""
 
@@ -105,14 +117,7 @@ class ArbArithmetic:
 
     def _point_pow(self, p, n: int):
         """Return p**n for an exact point p by repeated squaring in ball arithmetic."""
-        result, base = self.flint.arb(1), p
-        while n:
-            if n & 1:
-                result = result * base
-            n >>= 1
-            if n:
-                base = base * base
-        return result
+        return power_by_squaring(self.flint.arb(1), p, n)
 
     def call(self, fname: str, x, what: str):
         """Return the whitelisted function fname applied to x, with its domain checked."""

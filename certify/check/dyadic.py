@@ -16,7 +16,7 @@ import math
 from math import isqrt
 from typing import Iterator
 
-from .arith import Bounds, DomainError
+from .arith import Bounds, DomainError, power_by_squaring
 
 GUARD = 24  # extra bits for the series inside elementary functions
 MAX_ARGUMENT = 2**20  # |x| beyond this: exp/sin/cos refuse (DomainError), never a huge loop
@@ -197,14 +197,7 @@ class DyadicArithmetic:
         return Dyadic(self._pow_point(x.point(0), n).lo, self._pow_point(x.point(1), n).hi, x.p)
 
     def _pow_point(self, x: Dyadic, n: int) -> Dyadic:
-        result, base = self.const(Fraction(1)), x
-        while n:
-            if n & 1:
-                result = result * base
-            n >>= 1
-            if n:
-                base = base * base
-        return result
+        return power_by_squaring(self.const(Fraction(1)), x, n)
 
     # ------------------------------------------------------------ elementary functions
 
