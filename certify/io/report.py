@@ -228,8 +228,8 @@ def _kind_word(kind: str, stable: int | None, n: int) -> str:
     return stable_word if stable == n else unstable_word if stable == 0 else "saddle"
 
 
-def _box_text(box, variables) -> str:
-    return ", ".join(f"{v} in {interval_text(lo, hi)}" for v, (lo, hi) in zip(variables, box))
+def _box_text(box, variables, sep: str = ", ") -> str:
+    return sep.join(f"{v} in {interval_text(lo, hi)}" for v, (lo, hi) in zip(variables, box))
 
 
 def print_scan(result, caution: str) -> None:
@@ -265,7 +265,8 @@ def print_scan(result, caution: str) -> None:
         word = _kind_word(model.kind, z.stable_dimension, n)
         if z.inside is None:
             word += " (on the border of the region)"
-        table.add_row(f"  {k}", word, dims, _box_text(z.enclosure or z.box, model.variables))
+        table.add_row(f"  {k}", word, dims,
+                      _box_text(z.enclosure or z.box, model.variables, "\n"))
     if result.zeros:
         if result.pieces > 1:
             con.print("  (enclosures below are for the first parameter piece)")
