@@ -218,19 +218,16 @@ def check(data: dict, arithmetic: str = "flint") -> Verified:
                for j, x in enumerate(_list(piece["box"], n, f"{where}.box"))]
         precond = _matrix(piece["preconditioner"], n, f"{where}.preconditioner")
         s = _matrix(piece["inertia_matrix"], n, f"{where}.inertia_matrix")
+        sens = None
+        if "sensitivity" in piece:
+            sens = [[_rational(x, f"{where}.sensitivity[{a}][{b}]") for b, x in
+                     enumerate(_list(row, len(params), f"{where}.sensitivity[{a}]"))]
+                    for a, row in enumerate(_list(piece["sensitivity"], n,
+                                                  f"{where}.sensitivity"))]
         with ar.active():
-            if "sensitivity" in piece:
-                sens = [[_rational(x, f"{where}.sensitivity[{a}][{b}]") for b, x in
-                         enumerate(_list(row, len(params), f"{where}.sensitivity[{a}]"))]
-                        for a, row in enumerate(_list(piece["sensitivity"], n,
-                                                      f"{where}.sensitivity"))]
-                enclosure, jac, aff = _check_branch(ctx, ar, piece_box, centre, box, sens,
-                                                    precond, where)
-                check_inertia(ctx, aff, jac, s, stable, where)
-            else:
-                enclosure, jac = _check_krawczyk(ctx, ar, piece_box, centre, box, precond,
-                                                 where)
-                check_inertia(ctx, ar, jac, s, stable, where)
+            enclosure, jac, inertia_ar = _check_krawczyk(ctx, ar, piece_box, centre, box,
+                                                         precond, where, sens)
+            check_inertia(ctx, inertia_ar, jac, s, stable, where)
         enclosures.append(enclosure)
     _check_tiling([pbox[p] for p in params], boxes)
     return Verified({"verdict": "hyperbolic", "stable_dimension": stable,
@@ -291,54 +288,38 @@ def krawczyk_image(ctx: Problem, ar, pbox: Box, centre: list[Fraction], box: Box
 
 
 def _check_krawczyk(ctx: Problem, ar, pbox: Box, centre: list[Fraction], box: Box,
-                    precond, where: str) -> tuple[Box, list]:
-    """Obligation 1: K(X, P) lies in the interior of X (Krawczyk 1969; Moore 1977; Rump 1983).
+                    precond, where: str, sens=None):
+    """Obligation 1: K lies in the interior of E = X - c (Krawczyk 1969; Moore 1977; Rump 1983).
 
-    Then for every p in P there is exactly one zero of f(., p) in X, and it lies in K(X, P).
-    Returns K(X, P) intersected with X as exact bounds, and J_g(X, P).
+    Plain (sens None): K = -C f(c, P) + (I - C J(X, P)) E; then for every p in P there is
+    exactly one zero of f(., p) in X, and it lies in c + K. First-order form (sens = A, 1' in
+    proofs/FORMAT.md): K = -C f(c + A d, p) + (I - C J(X_d, p)) E for every p, X_d = X + A d.
+    Returns the enclosure of the zeros over P, J_g, and the arithmetic J_g is written in.
     """
     for j, ((lo, hi), c) in enumerate(zip(box, centre)):
         if not lo <= c <= hi:
             raise CertificateRejected("krawczyk", f"{where}.centre[{j}]", "found a centre "
                                       "outside the box")
     try:
-        image, jac = krawczyk_image(ctx, ar, pbox, centre, box, precond)
-    except DomainError as exc:
-        raise CertificateRejected("domain", where, str(exc)) from None
-    result: Box = []
-    for i, k in enumerate(image):
-        lo, hi = _bounds(ar, k, where)
-        if not (box[i][0] < lo and hi < box[i][1]):
-            raise CertificateRejected("krawczyk", f"{where}.box[{i}]",
-                                      f"found K = [{_approx(lo)}, {_approx(hi)}], "
-                                      "expected a subset of the interior of the box")
-        result.append((lo, hi))
-    return result, jac
-
-
-def _check_branch(ctx: Problem, ar, pbox: Box, centre, box: Box, sens, precond, where: str):
-    """Obligation 1 in first-order form (proofs/FORMAT.md): K(E) inside the interior of E.
-
-    Returns the enclosure of the branch over the piece (x~ + A (P - p_c) + K(E)), the affine
-    Jacobian and its arithmetic for the inertia test.
-    """
-    for j, ((lo, hi), c) in enumerate(zip(box, centre)):
-        if not lo <= c <= hi:
-            raise CertificateRejected("krawczyk", f"{where}.centre[{j}]", "found a centre "
-                                      "outside the box")
-    try:
-        image, e, jac, aff = branch_krawczyk(ctx, ar, pbox, centre, box, sens, precond)
+        if sens is None:
+            image, jac = krawczyk_image(ctx, ar, pbox, centre, box, precond)
+            image = [tuple(v - c for v in _bounds(ar, k, where)) for k, c in zip(image, centre)]
+            inertia_ar = ar
+        else:
+            image, _, jac, inertia_ar = branch_krawczyk(ctx, ar, pbox, centre, box, sens,
+                                                        precond)
     except DomainError as exc:
         raise CertificateRejected("domain", where, str(exc)) from None
     enclosure = []
-    for j, ((k_lo, k_hi), (e_lo, e_hi)) in enumerate(zip(image, e)):
-        if not (e_lo < k_lo and k_hi < e_hi):
-            raise CertificateRejected("krawczyk", f"{where}.box[{j}]", "found K(E) = "
-                                      f"[{_approx(k_lo)}, {_approx(k_hi)}], expected a subset "
-                                      "of the interior of E = X - centre")
-        spread = sum(abs(a) * (hi - lo) / 2 for a, (lo, hi) in zip(sens[j], pbox))
-        enclosure.append((centre[j] - spread + k_lo, centre[j] + spread + k_hi))
-    return enclosure, jac, aff
+    for j, ((k_lo, k_hi), (lo, hi), c) in enumerate(zip(image, box, centre)):
+        if not (lo - c < k_lo and k_hi < hi - c):
+            raise CertificateRejected("krawczyk", f"{where}.box[{j}]", "found K = "
+                                      f"[{_approx(c + k_lo)}, {_approx(c + k_hi)}], expected a "
+                                      "subset of the interior of the box")
+        spread = sum(abs(a) * (p_hi - p_lo) / 2 for a, (p_lo, p_hi) in
+                     zip(sens[j], pbox)) if sens else 0
+        enclosure.append((c - spread + k_lo, c + spread + k_hi))
+    return enclosure, jac, inertia_ar
 
 
 def _approx(q: Fraction) -> str:

@@ -113,7 +113,7 @@ def _zero(ctx: Problem, ar, pbox: Box, zero: dict, n: int, where: str):
            for i, x in enumerate(_list(zero["box"], n, f"{where}.box"))]
     precond = _matrix(zero["preconditioner"], n, f"{where}.preconditioner")
     with ar.active():
-        enclosure, _ = _check_krawczyk(ctx, ar, pbox, centre, box, precond, where)
+        enclosure, _, _ = _check_krawczyk(ctx, ar, pbox, centre, box, precond, where)
     return box, enclosure
 
 
