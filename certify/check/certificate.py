@@ -205,12 +205,7 @@ def check(data: dict, arithmetic: str = "flint") -> Verified:
         where = f"pieces[{i}]"
         _dict(piece, {"parameters", "centre", "box", "preconditioner", "inertia_matrix"}, where,
               {"sensitivity"})
-        pp = _dict(piece["parameters"], set(params), f"{where}.parameters")
-        piece_box = [_interval(pp[p], f"{where}.parameters.{p}") for p in params]
-        for p, (lo, hi) in zip(params, piece_box):
-            if lo < pbox[p][0] or hi > pbox[p][1]:
-                raise CertificateRejected("tiling", f"{where}.parameters.{p}",
-                                          "found a piece reaching outside the parameter box")
+        piece_box = piece_parameters(ctx, piece, where)
         boxes.append(piece_box)
         centre = [_rational(x, f"{where}.centre[{j}]")
                   for j, x in enumerate(_list(piece["centre"], n, f"{where}.centre"))]
@@ -252,6 +247,17 @@ class Problem:
     period: int
     params: list[str]
     pbox: dict[str, Bounds]
+
+
+def piece_parameters(ctx: Problem, piece: dict, where: str) -> Box:
+    """Return a piece's parameter box, which must lie inside the model's."""
+    pp = _dict(piece["parameters"], set(ctx.params), f"{where}.parameters")
+    box = [_interval(pp[p], f"{where}.parameters.{p}") for p in ctx.params]
+    for p, (lo, hi) in zip(ctx.params, box):
+        if lo < ctx.pbox[p][0] or hi > ctx.pbox[p][1]:
+            raise CertificateRejected("tiling", f"{where}.parameters.{p}",
+                                      "found a piece reaching outside the parameter box")
+    return box
 
 
 def krawczyk_image(ctx: Problem, ar, pbox: Box, centre: list[Fraction], box: Box,

@@ -14,7 +14,7 @@ from .ad import evaluate
 from .arith import DomainError
 from .certificate import (Box, CertificateRejected, Problem, _bounds, _check_krawczyk,
                           _check_tiling, _dict, _integer, _interval, _list, _matrix, _rational,
-                          check_inertia, krawczyk_image)
+                          check_inertia, krawczyk_image, piece_parameters)
 
 MAX_NODES = 2_000_000
 MAX_DEPTH = 200
@@ -44,12 +44,7 @@ def check_count(ctx: Problem, ar, data: dict, claim: dict, n: int, variables: li
     for i, piece in enumerate(pieces):
         where = f"pieces[{i}]"
         _dict(piece, {"parameters", "zeros", "tree"}, where)
-        pp = _dict(piece["parameters"], set(ctx.params), f"{where}.parameters")
-        pbox = [_interval(pp[p], f"{where}.parameters.{p}") for p in ctx.params]
-        for p, (lo, hi) in zip(ctx.params, pbox):
-            if lo < ctx.pbox[p][0] or hi > ctx.pbox[p][1]:
-                raise CertificateRejected("tiling", f"{where}.parameters.{p}",
-                                          "found a piece reaching outside the parameter box")
+        pbox = piece_parameters(ctx, piece, where)
         covers.append(pbox)
         found, n_leaves = _check_piece(ctx, ar, pbox, piece, b, n, where)
         inside = sorted((z["stable_dimension"] for z in found if z["inside"]),
