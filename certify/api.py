@@ -209,3 +209,164 @@ def write_certificate(cert: dict, path: str | Path) -> None:
     except BaseException:
         Path(tmp).unlink(missing_ok=True)
         raise
+
+
+class SweepResult:
+    """A finished sweep: iterate over its cells (read back from results.jsonl, streaming)."""
+
+    def __init__(self, folder: Path, manifest: dict, stats):
+        self.folder, self.manifest, self.stats = folder, manifest, stats
+
+    def __iter__(self):
+        from .io.sweep_store import read_results
+
+        return read_results(self.folder)
+
+    @property
+    def results_path(self) -> Path:
+        """Return the path of the results file (JSON lines)."""
+        from .io.sweep_store import RESULTS
+
+        return self.folder / RESULTS
+
+    def summary(self) -> dict:
+        """Return {"cells", "certified", "undecided", "rows": [(label, cells), ...]}."""
+        from .io.sweep_report import summarize
+
+        return summarize(self)
+
+    def write_jsonl(self, path: str | Path) -> None:
+        """Write the cells' JSON lines (the same as results.jsonl) to another file."""
+        import shutil
+
+        shutil.copyfile(self.results_path, path)
+
+
+def _grid_axes(model: Model, grid) -> tuple:
+    from .model import parse_value
+    from .search.sweep import MAX_CELLS, Axis
+
+    if not grid:
+        raise InputError("a sweep needs at least one grid parameter", model.source, "--grid")
+    axes, cells = [], 1
+    for name, spec in grid.items():
+        if name not in model.parameters:
+            known = ", ".join(model.parameters) or "none"
+            raise InputError(f"no parameter named '{name}' (parameters: {known})",
+                             model.source, "--grid")
+        lo_text, hi_text, n = spec
+        lo, _ = parse_value(lo_text if isinstance(lo_text, (str, int, Fraction)) else
+                            str(lo_text), model.source, f"--grid {name}")
+        hi, _ = parse_value(hi_text if isinstance(hi_text, (str, int, Fraction)) else
+                            str(hi_text), model.source, f"--grid {name}")
+        if not lo < hi:
+            raise InputError(f"the range of '{name}' is empty (LO must be below HI)",
+                             model.source, "--grid")
+        if isinstance(n, bool) or not isinstance(n, int) or n < 1:
+            raise InputError(f"the number of cells for '{name}' must be a positive integer",
+                             model.source, "--grid")
+        cells *= n
+        axes.append(Axis(name, lo, hi, n))
+    if cells > MAX_CELLS:
+        raise InputError(f"{cells} cells is more than the limit of {MAX_CELLS}", model.source,
+                         "--grid")
+    return tuple(axes)
+
+
+def _model_hash(model: Model, source) -> str:
+    import hashlib
+
+    if isinstance(source, (str, Path)):
+        from .io.sweep_store import sha256_file
+
+        return sha256_file(source)
+    text = json.dumps({"name": model.name, "kind": model.kind,
+                       "variables": list(model.variables),
+                       "equations": dict(model.equations),
+                       "parameters": {k: [str(lo), str(hi)] for k, (lo, hi) in
+                                      model.parameters.items()}}, sort_keys=True)
+    return hashlib.sha256(text.encode()).hexdigest()
+
+
+def sweep(model: Model | str | Path, grid: dict, guesses: list[dict[str, float]] | None = None,
+          scan: bool = False, region: dict[str, Interval] | None = None,
+          parameters: dict[str, Interval] | None = None, refine: int = 0, period: int = 1,
+          workers: int | None = None, scheduler: str | None = None,
+          out: str | Path | None = None, resume: bool = False, max_boxes: int = 20_000,
+          progress=None) -> SweepResult:
+    """Certify every cell of a parameter grid; return the results (also in out/results.jsonl).
+
+    grid: {name: (lo, hi, n)}, n equal cells between lo and hi (exact decimals or rationals).
+    Each cell is a closed parameter box; its verdicts hold for every parameter in it. With
+    scan=False the equilibria reached from the guesses (at the grid's centre, continued from
+    block to block) are certified; with scan=True the number of equilibria in the region.
+    refine: cells left undecided are bisected up to this many further levels.
+    workers: local processes (default: all cores); scheduler: a Dask address instead.
+    out: the sweep's folder (default: a new temporary folder).
+    """
+    import os
+    import tempfile
+
+    from .io.sweep_store import FORMAT, VERSION, SweepStore
+    from .model import parse_value
+    from .search.executors import drive
+    from .search.sweep import Job
+
+    source = model
+    if not isinstance(model, Model):
+        model = load_model(model)
+    if parameters:
+        model = model.with_parameters(parameters)
+    axes = _grid_axes(model, grid)
+    if period != 1 and model.kind != "map":
+        raise InputError("--period is for maps only (kind = \"map\")", model.source, "--period")
+    if not 0 <= refine <= 8:
+        raise InputError("--refine must be between 0 and 8", model.source, "--refine")
+    if scan:
+        region = region or model.region
+        if not region:
+            raise InputError("no region: give --region or a [region] table", model.source,
+                             "region")
+        box = []
+        for v in model.variables:
+            if v not in region:
+                raise InputError(f"the region has no side for '{v}'", model.source, "region")
+            lo, hi = region[v]
+            ends = [x if isinstance(x, Fraction) else parse_value(x, model.source, "region")[0]
+                    for x in (lo, hi)]
+            box.append((ends[0], ends[1]))
+        starts = ()
+    else:
+        box = ()
+        chosen = list(guesses or model.guesses)
+        if not chosen:
+            raise InputError("no starting point: give --guess or [[guesses]] in the model",
+                             model.source, "guesses")
+        for g in chosen:
+            missing = [v for v in model.variables if v not in g]
+            if missing:
+                raise InputError(f"no value for {', '.join(missing)}", model.source, "--guess")
+        starts = tuple(tuple(float(g[v]) for v in model.variables) for g in chosen)
+    job = Job(model=model, axes=axes, mode="scan" if scan else "guess", guesses=starts,
+              region=tuple(box), period=period, refine=refine, max_boxes=max_boxes)
+    arguments = {"grid": [a.text() for a in axes], "mode": job.mode,
+                 "guesses": [list(g) for g in starts],
+                 "region": [[str(lo), str(hi)] for lo, hi in box],
+                 "parameters": {k: [str(lo), str(hi)] for k, (lo, hi) in
+                                model.parameters.items()},
+                 "refine": refine, "period": period, "max_boxes": max_boxes}
+    manifest = {"format": FORMAT, "version": VERSION, "tool": "certify",
+                "model": str(source) if isinstance(source, (str, Path)) else model.name,
+                "model_sha256": _model_hash(model, source), "arguments": arguments,
+                "cells": 1}
+    for a in axes:
+        manifest["cells"] *= a.n
+    folder = Path(out) if out is not None else Path(tempfile.mkdtemp(prefix="certify-sweep-"))
+    store = SweepStore(folder)
+    finished = store.open(manifest, resume)
+    try:
+        stats = drive(job, store, finished, workers or os.cpu_count() or 1, scheduler,
+                      progress)
+    finally:
+        store.close()
+    return SweepResult(folder, manifest, stats)

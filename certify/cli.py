@@ -1,4 +1,4 @@
-"""The certify command line: inspect, equilibrium, verify."""
+"""The certify command line: inspect, equilibrium, scan, sweep, verify."""
 
 from __future__ import annotations
 
@@ -23,6 +23,7 @@ EXAMPLES = """examples:
   certify equilibrium examples/seasonal-map.toml --period 2
   certify scan examples/chemostat.toml --out chemostat-count.cert.json
   certify verify chemostat-1.cert.json
+  certify sweep examples/fishery.toml --grid h=0..0.3:30 --out fishery-sweep
 
 exit codes: 0 everything asked for is certified; 1 something is undecided, not hyperbolic or
 rejected; 2 the input is bad (the message says where and why)."""
@@ -72,6 +73,35 @@ def _parser() -> argparse.ArgumentParser:
     q.add_argument("--time-limit", type=float, default=120.0, metavar="SECONDS",
                    help="stop after this many seconds (default 120)")
     q.add_argument("--out", metavar="CERT.json", help="write the certificate of the count here")
+
+    q = sub.add_parser("sweep", help="certify every cell of a parameter grid (each cell a box)",
+                       formatter_class=argparse.RawDescriptionHelpFormatter, epilog=EXAMPLES)
+    model_options(q)
+    q.add_argument("--grid", action="append", default=[], metavar="NAME=LO..HI:N",
+                   help="sweep parameter NAME over N equal cells from LO to HI; repeatable")
+    what = q.add_mutually_exclusive_group()
+    what.add_argument("--guess", action="append", default=[], metavar="u=2.9,v=0.35",
+                      help="track the equilibrium reached from this point (at the grid's "
+                           "centre); repeatable (default: the model's [[guesses]])")
+    what.add_argument("--scan", action="store_true",
+                      help="certify the number of equilibria in the region in every cell")
+    q.add_argument("--region", metavar="u=0..4,v=0..4",
+                   help="with --scan: the search box (default: the model's [region])")
+    q.add_argument("--max-boxes", type=int, default=20_000, metavar="N",
+                   help="with --scan: box budget per proof (default 20000)")
+    q.add_argument("--period", type=int, default=1, metavar="K",
+                   help="maps only: certify points of period K")
+    q.add_argument("--refine", type=int, default=0, metavar="DEPTH",
+                   help="bisect undecided cells up to DEPTH more levels (default 0)")
+    q.add_argument("--workers", type=int, default=None, metavar="K",
+                   help="local worker processes (default: all cores; 1 runs in this process)")
+    q.add_argument("--scheduler", metavar="tcp://HOST:PORT",
+                   help="run the cells on this Dask distributed scheduler instead "
+                        "(pip install 'certify[distributed]')")
+    q.add_argument("--out", metavar="DIR", required=True,
+                   help="the sweep's folder: results.jsonl, manifest.json, certificates/, maps")
+    q.add_argument("--resume", action="store_true",
+                   help="go on with an interrupted sweep in DIR (same model and arguments)")
 
     q = sub.add_parser("verify", help="re-check certificate files with the trusted checker")
     q.add_argument("files", nargs="+", metavar="CERT.json")
@@ -135,6 +165,8 @@ def main(argv: list[str] | None = None) -> int:
             return _equilibrium(args)
         if args.command == "scan":
             return _scan(args)
+        if args.command == "sweep":
+            return _sweep(args)
         return _verify(args)
     except InputError as exc:
         print(f"certify: error: {exc}", file=sys.stderr)
@@ -224,6 +256,67 @@ def _scan(args) -> int:
     else:
         report.print_scan(result, CAUTION)
     return 0 if result.count is not None else 1
+
+
+def parse_grid(items: list[str]) -> dict:
+    """Return {name: (lo, hi, n)} from NAME=LO..HI:N texts."""
+    grid = {}
+    for item in items:
+        name, eq, rest = item.partition("=")
+        span, colon, count = rest.rpartition(":")
+        if not eq or not colon or ".." not in span or not name.strip():
+            raise InputError(f"expected NAME=LO..HI:N, found {item!r}", None, "--grid")
+        lo, _, hi = span.partition("..")
+        try:
+            n = int(count)
+        except ValueError:
+            raise InputError(f"the number of cells must be an integer, found {count!r}", None,
+                             f"--grid {name.strip()}") from None
+        if name.strip() in grid:
+            raise InputError(f"'{name.strip()}' is given twice", None, "--grid")
+        grid[name.strip()] = (lo.strip(), hi.strip(), n)
+    return grid
+
+
+def _sweep(args) -> int:
+    from .api import sweep
+    from .io import sweep_report
+    from .model import load_model
+
+    model = load_model(args.model)
+    overrides = parse_assignments(args.set, "--set")
+    grid = parse_grid(args.grid)
+    if not grid:
+        raise InputError("give at least one --grid NAME=LO..HI:N", None, "--grid")
+    if args.workers is not None and not 1 <= args.workers <= 1024:
+        raise InputError("--workers must be between 1 and 1024", None, "--workers")
+    if args.max_boxes < 1:
+        raise InputError("the budget must be positive", None, "--max-boxes")
+    if args.region and not args.scan:
+        raise InputError("--region goes with --scan", None, "--region")
+    region = parse_region(args.region, model) if args.region else None
+    guesses = [parse_guess(g) for g in args.guess] or None
+    with sweep_report.SweepProgress(enabled=not args.json) as progress:
+        result = sweep(args.model, grid, guesses=guesses, scan=args.scan, region=region,
+                       parameters=overrides or None, refine=args.refine, period=args.period,
+                       workers=args.workers, scheduler=args.scheduler, out=args.out,
+                       resume=args.resume, max_boxes=args.max_boxes, progress=progress)
+    pictures, note = [], None
+    try:
+        pictures = sweep_report.draw_maps(result.folder, result.manifest)
+        if not pictures:
+            note = "no map: maps are drawn for one or two grid parameters"
+    except ImportError:
+        note = "no map drawn: matplotlib is not installed (pip install 'certify[plot]')"
+    if args.json:
+        out = sweep_report.sweep_json(result, pictures)
+        if note:
+            out["note"] = note
+        print(json.dumps(out, indent=1))
+    else:
+        sweep_report.print_summary(result, CAUTION, pictures, note)
+    summary = result.summary()
+    return 0 if summary["undecided"] == 0 and summary["cells"] == result.manifest["cells"] else 1
 
 
 def _verify(args) -> int:

@@ -67,6 +67,10 @@ class ArbArithmetic:
             return ball.nonnegative_part()
         return -((-ball).nonnegative_part()) if hi <= 0 else ball
 
+    def magnitude(self, x):
+        """Return a ball whose upper end bounds |x| from above."""
+        return x.abs_upper()
+
     def bounds(self, x) -> Bounds:
         """Return exact rational bounds lo <= x <= hi."""
         if not x.is_finite():

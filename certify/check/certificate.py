@@ -204,7 +204,7 @@ def check(data: dict, arithmetic: str = "flint") -> Verified:
     for i, piece in enumerate(pieces):
         where = f"pieces[{i}]"
         _dict(piece, {"parameters", "centre", "box", "preconditioner", "inertia_matrix"}, where,
-              {"sensitivity"})
+              {"sensitivity", "preconditioner_slopes"})
         piece_box = piece_parameters(ctx, piece, where)
         boxes.append(piece_box)
         centre = [_rational(x, f"{where}.centre[{j}]")
@@ -213,7 +213,14 @@ def check(data: dict, arithmetic: str = "flint") -> Verified:
                for j, x in enumerate(_list(piece["box"], n, f"{where}.box"))]
         precond = _matrix(piece["preconditioner"], n, f"{where}.preconditioner")
         s = _matrix(piece["inertia_matrix"], n, f"{where}.inertia_matrix")
-        sens = None
+        sens = slopes = None
+        if "preconditioner_slopes" in piece:
+            if "sensitivity" not in piece:
+                raise CertificateRejected("malformed", f"{where}.preconditioner_slopes",
+                                          "found slopes without a sensitivity")
+            slopes = [_matrix(m, n, f"{where}.preconditioner_slopes[{a}]") for a, m in
+                      enumerate(_list(piece["preconditioner_slopes"], len(params),
+                                      f"{where}.preconditioner_slopes"))]
         if "sensitivity" in piece:
             sens = [[_rational(x, f"{where}.sensitivity[{a}][{b}]") for b, x in
                      enumerate(_list(row, len(params), f"{where}.sensitivity[{a}]"))]
@@ -221,7 +228,7 @@ def check(data: dict, arithmetic: str = "flint") -> Verified:
                                                   f"{where}.sensitivity"))]
         with ar.active():
             enclosure, jac, inertia_ar = _check_krawczyk(ctx, ar, piece_box, centre, box,
-                                                         precond, where, sens)
+                                                         precond, where, sens, slopes)
             check_inertia(ctx, inertia_ar, jac, s, stable, where)
         enclosures.append(enclosure)
     _check_tiling([pbox[p] for p in params], boxes)
@@ -294,12 +301,13 @@ def krawczyk_image(ctx: Problem, ar, pbox: Box, centre: list[Fraction], box: Box
 
 
 def _check_krawczyk(ctx: Problem, ar, pbox: Box, centre: list[Fraction], box: Box,
-                    precond, where: str, sens=None):
+                    precond, where: str, sens=None, slopes=None):
     """Obligation 1: K lies in the interior of E = X - c (Krawczyk 1969; Moore 1977; Rump 1983).
 
     Plain (sens None): K = -C f(c, P) + (I - C J(X, P)) E; then for every p in P there is
     exactly one zero of f(., p) in X, and it lies in c + K. First-order form (sens = A, 1' in
-    proofs/FORMAT.md): K = -C f(c + A d, p) + (I - C J(X_d, p)) E for every p, X_d = X + A d.
+    proofs/FORMAT.md): K = -C(p) f(c + A d, p) + (I - C(p) J(X_d, p)) E for every p,
+    X_d = X + A d, C(p) = C + sum_l S_l d_l (slopes S_l, zero when absent).
     Returns the enclosure of the zeros over P, J_g, and the arithmetic J_g is written in.
     """
     for j, ((lo, hi), c) in enumerate(zip(box, centre)):
@@ -313,7 +321,7 @@ def _check_krawczyk(ctx: Problem, ar, pbox: Box, centre: list[Fraction], box: Bo
             inertia_ar = ar
         else:
             image, _, jac, inertia_ar = branch_krawczyk(ctx, ar, pbox, centre, box, sens,
-                                                        precond)
+                                                        precond, slopes)
     except DomainError as exc:
         raise CertificateRejected("domain", where, str(exc)) from None
     enclosure = []

@@ -154,6 +154,10 @@ class DyadicArithmetic:
         """Return an interval containing [lo, hi]."""
         return Dyadic(self.const(lo).lo, self.const(hi).hi, self.prec)
 
+    def magnitude(self, x: Dyadic) -> Dyadic:
+        """Return the point max(|lo|, |hi|)."""
+        return x.magnitude()
+
     def bounds(self, x: Dyadic) -> Bounds:
         """Return the exact ends as Fractions."""
         def f(m, e):

@@ -63,6 +63,8 @@ def parse_value(raw, file: str | None = None, key: str | None = None,
                 line: int | None = None) -> Interval:
     """Return the exact interval meant by a parameter value: a number, 'p/q', or [lo, hi]."""
     def one(v) -> Fraction:
+        if isinstance(v, Fraction):  # from the Python API: already exact
+            return v
         if isinstance(v, bool) or not isinstance(v, (str, int)):
             raise InputError(f"expected a number, found {type(v).__name__}", file, key, line)
         try:
@@ -71,7 +73,7 @@ def parse_value(raw, file: str | None = None, key: str | None = None,
             raise InputError(f"not an exact finite number ({exc.reason}): {str(v)[:30]!r}",
                              file, key, line) from None
 
-    if isinstance(raw, list):
+    if isinstance(raw, (list, tuple)):
         if len(raw) != 2:
             raise InputError(f"an interval is [lo, hi], found {len(raw)} entries", file, key, line)
         lo, hi = one(raw[0]), one(raw[1])

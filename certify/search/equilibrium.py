@@ -9,6 +9,7 @@ undecided with a reason.
 from __future__ import annotations
 
 from dataclasses import dataclass, field
+import itertools
 from fractions import Fraction
 
 import numpy as np
@@ -190,7 +191,7 @@ def certify_piece(problem: Problem, pbox: list[Interval], x: np.ndarray, prec: i
 
 
 def certify_branch_piece(problem: Problem, system: FloatSystem, pbox: list[Interval],
-                         x: np.ndarray, prec: int) -> dict:
+                         x: np.ndarray, prec: int, improve: bool = True) -> dict:
     """Return a checked piece in first-order form: x(p) in x~ + A (p - p_c) + E.
 
     A ~ -J^-1 df/dp at the parameter centre (central differences in floats: it only steers).
@@ -199,12 +200,19 @@ def certify_branch_piece(problem: Problem, system: FloatSystem, pbox: list[Inter
     n, k = len(x), len(pbox)
     ar = ArbArithmetic(prec)
     fx, jx = float_residual(system, problem.kind, problem.period, x)
+    try:
+        jinv = np.linalg.inv(jx)
+    except np.linalg.LinAlgError:
+        raise Undecided("no-enclosure", "the Jacobian is singular") from None
     dfdp = np.zeros((n, k))
+    steps = []
     for i, name in enumerate(problem.params):
         lo, hi = pbox[i]
         if lo == hi:
+            steps.append(None)
             continue
         h = 1e-6 * max(1.0, abs(float(lo + hi) / 2))
+        steps.append(h)
         saved = system.point[name]
         system.point[name] = saved + h
         up, _ = float_residual(system, problem.kind, problem.period, x)
@@ -212,22 +220,40 @@ def certify_branch_piece(problem: Problem, system: FloatSystem, pbox: list[Inter
         down, _ = float_residual(system, problem.kind, problem.period, x)
         system.point[name] = saved
         dfdp[:, i] = (up - down) / (2 * h)
-    try:
-        jinv = np.linalg.inv(jx)
-    except np.linalg.LinAlgError:
-        raise Undecided("no-enclosure", "the Jacobian is singular") from None
-    sens = to_exact(-jinv @ dfdp)
+    sens_float = -jinv @ dfdp
+    # The preconditioner's slopes: d/dp of J(x(p), p)^-1 along the branch, so that
+    # I - C(p) J(p) is of second order in p - p_c (central differences; they only steer).
+    slopes = []
+    for i, name in enumerate(problem.params):
+        h = steps[i]
+        if h is None:
+            slopes.append(np.zeros((n, n)))
+            continue
+        saved = system.point[name]
+        inverses = []
+        for sign in (1, -1):
+            system.point[name] = saved + sign * h
+            _, j_side = float_residual(system, problem.kind, problem.period,
+                                       x + sign * h * sens_float[:, i])
+            inverses.append(np.linalg.inv(j_side))
+        system.point[name] = saved
+        slopes.append((inverses[0] - inverses[1]) / (2 * h))
+    if not all(np.all(np.isfinite(m)) for m in slopes):
+        raise Undecided("no-enclosure", "the Jacobian is singular near the branch")
+    sens = to_exact(sens_float)
     precond = to_exact(jinv)
+    slopes_exact = [to_exact(m) for m in slopes]
     centre = [Fraction(float(v)) for v in x]
     tiny = Fraction(2) ** (-prec - 20)
     try:
         image, _, _, _ = branch_krawczyk(problem, ar, pbox, centre, [(c, c) for c in centre],
-                                         sens, precond)
+                                         sens, precond, slopes_exact)
         radius = [max(abs(lo), abs(hi)) * 2 + abs(c) * Fraction(2) ** (-prec + 5) + tiny
                   for (lo, hi), c in zip(image, centre)]
         for _ in range(INFLATION_ROUNDS):
             box = [(c - r, c + r) for c, r in zip(centre, radius)]
-            image, e, jac, aff = branch_krawczyk(problem, ar, pbox, centre, box, sens, precond)
+            image, e, jac, aff = branch_krawczyk(problem, ar, pbox, centre, box, sens, precond,
+                                                 slopes_exact)
             if all(e_lo < lo and hi < e_hi for (lo, hi), (e_lo, e_hi) in zip(image, e)):
                 break
             radius = [max(r, abs(lo), abs(hi)) * Fraction(3, 2) + tiny
@@ -246,40 +272,46 @@ def certify_branch_piece(problem: Problem, system: FloatSystem, pbox: list[Inter
     for i in range(n):
         for j in range(i):
             s_exact[i][j] = s_exact[j][i]
-    s_exact = _checked_branch_inertia(problem, ar, aff, jac, s_float, s_exact)
+    s_exact = _checked_branch_inertia(problem, ar, aff, jac, s_float, s_exact, improve)
     return {"parameters": {p: [rational_text(lo), rational_text(hi)]
                            for p, (lo, hi) in zip(problem.params, pbox)},
             "centre": [rational_text(c) for c in centre],
             "box": [[rational_text(lo), rational_text(hi)] for lo, hi in box],
             "sensitivity": [[rational_text(v) for v in row] for row in sens],
             "preconditioner": [[rational_text(v) for v in row] for row in precond],
+            "preconditioner_slopes": [[[rational_text(v) for v in row] for row in m]
+                                      for m in slopes_exact],
             "inertia_matrix": [[rational_text(v) for v in row] for row in s_exact]}
 
 
-def _checked_branch_inertia(problem, ar, aff, jac, s_float, s_exact):
+def _checked_branch_inertia(problem, ar, aff, jac, s_float, s_exact, improve=True):
     """Return an inertia matrix the checker accepts over the branch, or raise Undecided.
 
     First the midpoint's Lyapunov/Stein solution; then one improved to be definite at the
     vertex Jacobians of the first-order form (a common Lyapunov matrix).
     """
     n = len(s_exact)
-    tries = [s_exact]
-    centre = np.array([[float(v.c.mid()) for v in row] for row in jac])
-    slopes = [np.array([[float(v.d[i].mid()) for v in row] for row in jac])
-              for i in range(aff.k)]
-    vertices = [centre]
-    for slope in slopes:
-        if np.any(slope):
-            vertices = [v + t * slope for v in vertices for t in (-1, 1)]
-    better = common_inertia_matrix(vertices, problem.kind, s_float) if len(vertices) > 1 else None
-    if better is not None:
+
+    def improved():  # a common Lyapunov matrix, only when the midpoint's solution fails
+        centre = np.array([[float(v.c.mid()) for v in row] for row in jac])
+        slopes = [np.array([[float(v.d[i].mid()) for v in row] for row in jac])
+                  for i in range(aff.k)]
+        vertices = [centre]
+        for slope in slopes:
+            if np.any(slope):
+                vertices = [v + t * slope for v in vertices for t in (-1, 1)]
+        better = common_inertia_matrix(vertices, problem.kind, s_float) \
+            if len(vertices) > 1 else None
+        if better is None:
+            return
         s2 = to_exact(better, 52)
         for i in range(n):
             for j in range(i):
                 s2[i][j] = s2[j][i]
-        tries.append(s2)
+        yield s2
+
     reason = "no inertia matrix could be built"
-    for s in tries:
+    for s in itertools.chain([s_exact], improved() if improve else ()):
         counts = exact.inertia(s)
         if counts is None:
             continue
@@ -342,11 +374,12 @@ def certify_guess(model: Model, guess: dict[str, float], period: int = 1,
                   max_precision: int = DEFAULT_MAX_PRECISION,
                   max_pieces: int = MAX_PIECES,
                   arithmetics: tuple[str, ...] = ("flint",),
-                  first_order: bool = True) -> Attempt:
+                  first_order: bool = True, improve: bool = True) -> Attempt:
     """Return the certified verdict for the equilibrium reached from one guess.
 
     The finished certificate must pass the checker in every arithmetic named (the fast one by
-    default; both when the certificate is to be written to a file).
+    default; both when the certificate is to be written to a file). improve=False skips the
+    search for a common Lyapunov matrix (sweeps cut such a block instead).
     """
     attempt = Attempt(guess=dict(guess), parameters=dict(model.parameters))
     problem = problem_of(model, period)
@@ -354,7 +387,7 @@ def certify_guess(model: Model, guess: dict[str, float], period: int = 1,
     full = [model.parameters[p] for p in problem.params]
     try:
         pieces, used = _cover(model, problem, full, x0, precision, max_precision, max_pieces,
-                              first_order)
+                              first_order, improve)
     except Undecided as exc:
         attempt.reason, attempt.message = exc.reason, exc.message
         if all(lo == hi for lo, hi in full):
@@ -394,7 +427,8 @@ def certificate(model: Model, period: int, precision: int, claim: dict,
     return cert
 
 
-def _cover(model, problem, full, x0, precision, max_precision, max_pieces, first_order=True):
+def _cover(model, problem, full, x0, precision, max_precision, max_pieces, first_order=True,
+           improve=True):
     """Return pieces covering the parameter box, bisecting where one proof does not suffice."""
     ladder = precisions(precision, max_precision)
     widths = [hi - lo for lo, hi in full]
@@ -413,7 +447,7 @@ def _cover(model, problem, full, x0, precision, max_precision, max_pieces, first
                 piece = None
                 if wide and first_order:  # first-order form first; plain where it fails
                     try:
-                        piece = certify_branch_piece(problem, system, pbox, x, prec)
+                        piece = certify_branch_piece(problem, system, pbox, x, prec, improve)
                     except Undecided as exc:
                         if exc.reason == "near-axis":  # plain intervals would be wider still
                             raise
@@ -444,6 +478,8 @@ def _cover(model, problem, full, x0, precision, max_precision, max_pieces, first
                                 f"({failure.message})")
             raise failure
         if len(pieces) + len(todo) + 2 > max_pieces:
+            if max_pieces == 1:  # one proof was asked for: say why it failed
+                raise Undecided(failure.reason, failure.message)
             raise Undecided("budget", f"more than {max_pieces} pieces would be needed")
         lo, hi = pbox[k]
         mid = (lo + hi) / 2

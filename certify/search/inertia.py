@@ -107,5 +107,5 @@ def common_inertia_matrix(vertices: list[np.ndarray], kind: str, start: np.ndarr
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")
         res = so.minimize(worst, start[iu], method="Nelder-Mead",
-                          options={"maxiter": 400 * n * n, "xatol": 1e-12, "fatol": 1e-14})
+                          options={"maxiter": 100 * n * n, "xatol": 1e-9, "fatol": 1e-9})
     return unpack(res.x) if res.fun < 0 else None
