@@ -138,6 +138,14 @@ def tampered(valid: dict[str, dict]) -> list[tuple[str, object, str, str]]:
     edit("branch-sensitivity-reversed", branch, lambda d: d["pieces"][0].__setitem__(
         "sensitivity", [[_neg(v) for v in row] for row in d["pieces"][0]["sensitivity"]]),
         "krawczyk", "the first-order branch running the wrong way")
+    edit("branch-slopes-without-sensitivity", branch, lambda d: d["pieces"][0].pop(
+        "sensitivity"), "malformed", "preconditioner slopes on a plain piece")
+    edit("branch-slopes-inflated", branch, lambda d: d["pieces"][0].__setitem__(
+        "preconditioner_slopes", [[[v if v == "0" else f"{v}e3" if "/" not in v else
+                                    f"{int(v.split('/')[0]) * 1000}/{v.split('/')[1]}"
+                                    for v in row] for row in m] for m in
+                                  d["pieces"][0]["preconditioner_slopes"]]), "krawczyk",
+        "the preconditioner's slopes a thousand times too steep")
     edit("branch-parameter-widened", branch, lambda d: (
         d["model"]["parameters"].__setitem__("rho", ["24", "29"]),
         d["pieces"][0]["parameters"].__setitem__("rho", ["24", "29"])), "krawczyk",

@@ -221,8 +221,8 @@ def branch_krawczyk(ctx, base, pbox, centre, box, sens, precond, slopes=None):
         _, jac = evaluate(ctx.tape, ar, state(True), params, ctx.period)
         one, zero = ar.const(Fraction(1)), ar.const(Fraction(0))
         cp = [[ar.form(base.const(precond[i][t]),
-                       [base.const(slopes[l][i][t] * rads[l] if slopes else Fraction(0))
-                        for l in range(k)]) for t in range(n)] for i in range(n)]
+                       [base.const(slopes[m][i][t] * rads[m] if slopes else Fraction(0))
+                        for m in range(k)]) for t in range(n)] for i in range(n)]
         deviation = [ar.form(ar.zero, [ar.zero] * k, x) for x in e]
         image = []
         for i in range(n):
