@@ -292,7 +292,7 @@ def sweep(model: Model | str | Path, grid: dict, guesses: list[dict[str, float]]
           scan: bool = False, region: dict[str, Interval] | None = None,
           parameters: dict[str, Interval] | None = None, refine: int = 0, period: int = 1,
           workers: int | None = None, scheduler: str | None = None,
-          out: str | Path | None = None, resume: bool = False, max_boxes: int = 20_000,
+          out: str | Path | None = None, resume: bool = False, max_boxes: int = 2_000,
           progress=None) -> SweepResult:
     """Certify every cell of a parameter grid; return the results (also in out/results.jsonl).
 
@@ -357,6 +357,7 @@ def sweep(model: Model | str | Path, grid: dict, guesses: list[dict[str, float]]
                  "refine": refine, "period": period, "max_boxes": max_boxes}
     manifest = {"format": FORMAT, "version": VERSION, "tool": "certify",
                 "model": str(source) if isinstance(source, (str, Path)) else model.name,
+                "model_name": model.name,
                 "model_sha256": _model_hash(model, source), "arguments": arguments,
                 "cells": 1}
     for a in axes:

@@ -87,8 +87,9 @@ def _parser() -> argparse.ArgumentParser:
                       help="certify the number of equilibria in the region in every cell")
     q.add_argument("--region", metavar="u=0..4,v=0..4",
                    help="with --scan: the search box (default: the model's [region])")
-    q.add_argument("--max-boxes", type=int, default=20_000, metavar="N",
-                   help="with --scan: box budget per proof (default 20000)")
+    q.add_argument("--max-boxes", type=int, default=2_000, metavar="N",
+                   help="with --scan: box budget of each proof (default 2000); a block "
+                        "over budget is cut")
     q.add_argument("--period", type=int, default=1, metavar="K",
                    help="maps only: certify points of period K")
     q.add_argument("--refine", type=int, default=0, metavar="DEPTH",

@@ -151,7 +151,6 @@ def draw_maps(folder: str | Path, manifest: dict | None = None) -> list[str]:
     if len(axes) > 2:
         return []
     labels, patches = {}, {}
-    hatched = []
 
     def colour(label):
         if label not in labels:
@@ -178,8 +177,6 @@ def draw_maps(folder: str | Path, manifest: dict | None = None) -> list[str]:
                 colour(lab)
                 patches.setdefault(lab, []).append(rect(record["parameters"],
                                                         e["equilibrium"] - 1))
-                if lab == "undecided":
-                    hatched.append(rect(record["parameters"], e["equilibrium"] - 1))
                 for part in e.get("parts", []):
                     pl = f"{part['type']} (unstable dimension {part['unstable_dimension']})"
                     colour(pl)
@@ -189,7 +186,6 @@ def draw_maps(folder: str | Path, manifest: dict | None = None) -> list[str]:
         colour(label)
         patches.setdefault(label, []).append(rect(record["parameters"]))
         if label == "undecided":
-            hatched.append(rect(record["parameters"]))
             parts = record.get("parts") or [p for e in record.get("equilibria", [])
                                             for p in e.get("parts", [])]
             for part in parts:
@@ -198,11 +194,11 @@ def draw_maps(folder: str | Path, manifest: dict | None = None) -> list[str]:
                 colour(pl)
                 patches.setdefault(pl, []).append(rect(part["parameters"]))
     fig, ax = plt.subplots(figsize=(7.5, 5.5) if len(axes) == 2 else (8, 1.2 + 0.6 * rows))
-    for label, items in sorted(patches.items(), key=lambda kv: kv[0] != "undecided"):
+    if "undecided" in patches:  # undecided cells first, hatched; certified parts on top
+        ax.add_collection(PatchCollection(patches.pop("undecided"), facecolor=UNDECIDED,
+                                          edgecolor="#636363", hatch="///", linewidth=0.0))
+    for label, items in sorted(patches.items()):
         ax.add_collection(PatchCollection(items, facecolor=labels[label], edgecolor="none"))
-    if hatched:
-        ax.add_collection(PatchCollection(hatched, facecolor="none", edgecolor="#636363",
-                                          hatch="///", linewidth=0.0))
     grid = manifest["arguments"]["grid"]
     ranges = []
     for g in grid:
@@ -223,7 +219,8 @@ def draw_maps(folder: str | Path, manifest: dict | None = None) -> list[str]:
                for lab, c in sorted(labels.items(), key=lambda kv: kv[0] == "undecided")]
     ax.legend(handles=handles, loc="upper left", bbox_to_anchor=(1.01, 1.0), fontsize=8,
               title="certified over the whole cell", title_fontsize=8)
-    ax.set_title(f"{manifest['model']}: {manifest['cells']} cells", fontsize=10)
+    ax.set_title(f"{manifest.get('model_name', manifest['model'])}: {manifest['cells']} "
+                 "cells, each certified over the whole cell or undecided", fontsize=10)
     fig.tight_layout()
     out = []
     for ext in ("png", "svg"):

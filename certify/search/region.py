@@ -247,12 +247,14 @@ MIN_PIECE = Fraction(1, 2**12)  # narrowest parameter piece, relative to the req
 
 def scan(model: Model, region: dict[str, Interval] | None = None,
          max_boxes: int = DEFAULT_MAX_BOXES, time_limit: float = DEFAULT_TIME_LIMIT,
-         progress=None, arithmetics: tuple[str, ...] = ("flint",)) -> ScanResult:
+         progress=None, arithmetics: tuple[str, ...] = ("flint",),
+         cut_parameters: bool = True) -> ScanResult:
     """Return the certified number of equilibria (fixed points) of the model in the region.
 
     For a parameter box the count must hold for every parameter in it: when one proof does not
     cover the box (a zero's branch moves too far for one Krawczyk box), the parameter box is
-    cut into pieces, each scanned on its own; the count and the kinds of zeros must agree.
+    cut into pieces, each scanned on its own; the count and the kinds of zeros must agree
+    (cut_parameters=False: one piece only, for sweeps, which cut their blocks themselves).
     """
     region = dict(region or model.region or {})
     b = [region[v] for v in model.variables]
@@ -266,7 +268,7 @@ def scan(model: Model, region: dict[str, Interval] | None = None,
     while todo:
         pbox = todo.pop()
         rel = [(hi - lo) / w if w else Fraction(0) for (lo, hi), w in zip(pbox, widths)]
-        can_cut = bool(rel) and max(rel) > MIN_PIECE
+        can_cut = cut_parameters and bool(rel) and max(rel) > MIN_PIECE
         budget = min(PIECE_BOXES, max_boxes - done) if can_cut else max_boxes - done
         scanner = _Scanner(model, b, pbox, budget, deadline, progress, done)
         tree = scanner.run()

@@ -63,7 +63,7 @@ class Job:
     region: tuple[Interval, ...] = ()
     period: int = 1
     refine: int = 0
-    max_boxes: int = 20_000
+    max_boxes: int = 2_000
     arithmetics: tuple[str, ...] = ("flint", "python")
 
 
@@ -206,13 +206,15 @@ def _steered_attempt(job: Job, box: dict[str, Interval], x, improve: bool = True
     return {**_attempt_guess(job, box, x, improve), "proofs": 1}
 
 
-def _attempt_scan(job: Job, box: dict[str, Interval]) -> dict:
+def _attempt_scan(job: Job, box: dict[str, Interval], cut: bool = True) -> dict:
+    """Return the certified count on a box; cut=False keeps one parameter piece (a block of
+    several cells is cut by the sweep instead)."""
     from .region import scan
 
     model = _model_for(job, box)
     region = dict(zip(model.variables, job.region))
     result = scan(model, region, max_boxes=job.max_boxes, time_limit=3600.0,
-                  arithmetics=job.arithmetics)
+                  arithmetics=job.arithmetics, cut_parameters=cut)
     if result.count is None:
         return {"verdict": "undecided", "reason": result.reason, "message": result.message}
     claim = result.certificate["claim"]
@@ -315,7 +317,7 @@ def run_block(job: Job, task: Task) -> dict:
         slots = [None] if not task.inherited else task.inherited
         if slots[0] is not None:
             return {"outcomes": slots, "proofs": 0, "predictions": [None]}
-        found = _attempt_scan(job, box)
+        found = _attempt_scan(job, box, cut=single)
         proofs += 1
         if found["verdict"] == "undecided" and single and job.refine:
             found, k = _finish_cell(job, box, found, lambda sub: _attempt_scan(job, sub))
