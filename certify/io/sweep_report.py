@@ -99,11 +99,12 @@ def print_summary(result, caution: str, pictures: list[str], note: str | None) -
                   f"{st.proofs} proofs tried on {st.blocks} blocks"
                   + (f", {st.workers_lost} lost worker(s) replaced" if st.workers_lost else ""))
     console.print(f"results: {result.results_path} (one JSON line per cell); certificates in "
-                  f"{result.folder / 'certificates'}; check them with certify verify")
+                  f"{result.folder / 'certificates'}; check them with certify verify",
+                  markup=False)
     for p in pictures:
-        console.print(f"map: {p}")
+        console.print(f"map: {p}", markup=False)
     if note:
-        console.print(note)
+        console.print(note, markup=False)
     if s["undecided"]:
         console.print("undecided cells are not failures of the model: the proof did not "
                       "succeed there (a bifurcation may lie in the cell, or the cell is too "
