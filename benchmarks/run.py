@@ -7,8 +7,11 @@
     python benchmarks/run.py widths     enclosure widths of the two arithmetics' functions
     python benchmarks/run.py scan       certified counts vs multi-start float Newton
     python benchmarks/run.py branches   one-piece widths and sweep proofs: plain vs first-order
+    python benchmarks/run.py sweep      100 x 100 Brusselator sweep vs stacked float Newton +
+                                        eigvals at the cell centres; memory at 10^5 cells
 
-Targets (issues): certification of Lorenz C+ at most 10x float Newton + eigvals.
+Targets (issues): certification of Lorenz C+ at most 10x float Newton + eigvals; a sweep
+certifies at least 1/20 of the float baseline's cells per second, under 500 MB at 10^5 cells.
 """
 
 from __future__ import annotations
@@ -223,8 +226,65 @@ def bench_widths() -> None:
         print(f"  {fname:5s} flint {row[0]:6.1f}   python {row[1]:6.1f}")
 
 
+MEMORY_PROBE = """
+import resource, sys, tempfile
+from certify import make_model
+from certify.api import sweep
+m = make_model(["x", "y"], ["-k*x + y/10", "-m*y"], {"k": 1, "m": 1}, guesses=[{"x": 0, "y": 0}])
+r = sweep(m, {"k": ("1", "2", 316), "m": ("1", "2", 316)}, workers=2,
+          out=tempfile.mkdtemp())
+own = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss
+kids = resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss
+print(r.summary()["cells"], r.stats.proofs, own, kids, r.stats.seconds)
+"""
+
+
+def bench_sweep() -> None:
+    import subprocess
+    import tempfile
+
+    from certify.api import sweep
+
+    model = make_model(["x", "y"], ["a - (b + 1)*x + x**2*y", "b*x - x**2*y"],
+                       {"a": 1, "b": 2}, guesses=[{"x": 1.2, "y": 2.5}])
+    n = 100
+    # float baseline: stacked Newton from the same start at every cell centre, then eigvals
+    t = time.perf_counter()
+    for _ in range(3):
+        a, b = np.meshgrid(0.5 + 1.5 * (np.arange(n) + 0.5) / n, 1 + 4 * (np.arange(n) + 0.5) / n)
+        a, b = a.ravel(), b.ravel()
+        x, y = np.full(a.shape, 1.2), np.full(a.shape, 2.5)
+        for _ in range(30):
+            f = np.stack([a - (b + 1) * x + x * x * y, b * x - x * x * y], axis=1)
+            jac = np.empty((a.size, 2, 2))
+            jac[:, 0, 0], jac[:, 0, 1] = -(b + 1) + 2 * x * y, x * x
+            jac[:, 1, 0], jac[:, 1, 1] = b - 2 * x * y, -x * x
+            step = np.linalg.solve(jac, f[:, :, None])[:, :, 0]
+            x, y = x - step[:, 0], y - step[:, 1]
+        np.linalg.eigvals(jac)
+    base = (time.perf_counter() - t) / 3
+    result = sweep(model, {"a": ("0.5", "2", n), "b": ("1", "5", n)}, workers=2,
+                   out=tempfile.mkdtemp())
+    s, st = result.summary(), result.stats
+    rate, base_rate = s["certified"] / st.seconds, n * n / base
+    print(f"sweep, Brusselator {n} x {n} on 2 workers, --guess, no refinement:")
+    print(f"  certified {s['certified']} of {n * n} cells in {st.seconds:.1f} s = {rate:.0f} "
+          f"cells/s; float baseline {base * 1e3:.1f} ms = {base_rate:.0f} cells/s")
+    print(f"  ratio {rate / base_rate:.4f} (target >= 0.05); {st.proofs} proofs tried on "
+          f"{st.blocks} blocks = {st.proofs / (n * n):.3f} proofs per cell")
+    out = subprocess.run([sys.executable, "-c", MEMORY_PROBE], capture_output=True, text=True,
+                         check=True).stdout.split()
+    cells, proofs, own, kids, seconds = int(out[0]), int(out[1]), int(out[2]), int(out[3]), \
+        float(out[4])
+    print(f"  memory at {cells} cells (a linear model, {proofs} proof(s), {seconds:.1f} s): "
+          f"driver peak {own / 1024:.0f} MB, largest worker {kids / 1024:.0f} MB "
+          "(target < 500 MB)")
+
+
 if __name__ == "__main__":
-    which = sys.argv[1:] or ["eval", "certify", "verify", "widths", "scan", "branches"]
+    which = sys.argv[1:] or ["eval", "certify", "verify", "widths", "scan", "branches", "sweep"]
+    if "sweep" in which:
+        bench_sweep()
     if "eval" in which:
         bench_eval()
     if "certify" in which:

@@ -9,6 +9,7 @@ Certificates are written before the lines that name them.
 from __future__ import annotations
 
 import concurrent.futures as cf
+import itertools
 from concurrent.futures.process import BrokenProcessPool
 import multiprocessing
 import time
@@ -18,6 +19,7 @@ from ..io.decimal import bounds_text, honest_digits
 from .sweep import Job, Task, block_box, cells_of, child_tasks, interval_json, n_cells, \
     needs_split, run_block
 
+BATCH = 2048  # result lines per write
 MAX_LOST_POOLS = 20  # pool restarts after dead workers before the sweep gives up
 TYPES = {"flow": ("sink", "source"), "map": ("attracting", "repelling")}
 
@@ -168,9 +170,8 @@ def _describe(job: Job, found: dict) -> None:
         found["enclosure"] = out
 
 
-def cell_records(job: Job, task: Task, result: dict, finished: set) -> list[dict]:
-    """Return the result lines of a finished block's cells (those not finished before)."""
-    records = []
+def cell_records(job: Job, task: Task, result: dict, finished: set):
+    """Yield the result lines of a finished block's cells (those not finished before)."""
     for cell in cells_of(task.block):
         if cell in finished:
             continue
@@ -184,8 +185,7 @@ def cell_records(job: Job, task: Task, result: dict, finished: set) -> list[dict
             record["count"] = outcomes[0].get("count")
         else:
             record["equilibria"] = [{"equilibrium": k + 1, **o} for k, o in enumerate(outcomes)]
-        records.append(record)
-    return records
+        yield record
 
 
 def drive(job: Job, store, finished: set, workers: int = 1, scheduler: str | None = None,
@@ -234,16 +234,20 @@ def drive(job: Job, store, finished: set, workers: int = 1, scheduler: str | Non
                     stack += reversed(child_tasks(job, task, result))
                     continue
                 records = cell_records(job, task, result, finished)
-                store.append(records)
-                for r in records:
-                    stats.cells += 1
-                    if r["status"] == "certified":
-                        stats.certified += 1
-                    else:
-                        stats.undecided += 1
-                done += len(records)
-                if progress is not None:
-                    progress(done, total, stats)
+                while True:  # a big block streams out in batches, memory stays flat
+                    batch = list(itertools.islice(records, BATCH))
+                    if not batch:
+                        break
+                    store.append(batch)
+                    for r in batch:
+                        stats.cells += 1
+                        if r["status"] == "certified":
+                            stats.certified += 1
+                        else:
+                            stats.undecided += 1
+                    done += len(batch)
+                    if progress is not None:
+                        progress(done, total, stats)
     finally:
         runner.shutdown()
         stats.seconds = time.monotonic() - start
