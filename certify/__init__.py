@@ -2,10 +2,11 @@
 
 __version__ = "0.1.0"
 
-from .api import EquilibriumResult, equilibrium, verify
+from .api import EquilibriumResult, SweepResult, equilibrium, scan, sweep, verify
 from .check import CertificateRejected, Verified
 from .errors import InputError
 from .model import Model, load_model, make_model, model_from_text
 
-__all__ = ["CertificateRejected", "EquilibriumResult", "InputError", "Model", "Verified",
-           "__version__", "equilibrium", "load_model", "make_model", "model_from_text", "verify"]
+__all__ = ["CertificateRejected", "EquilibriumResult", "InputError", "Model", "SweepResult",
+           "Verified", "__version__", "equilibrium", "load_model", "make_model",
+           "model_from_text", "scan", "sweep", "verify"]

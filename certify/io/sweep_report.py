@@ -17,9 +17,11 @@ def cell_label(record: dict) -> str:
         return "undecided"
     if "count" in record and "equilibria" not in record:
         return f"{record['count']} equilibria"
-    parts = [f"{e['type']} (unstable dimension {e['unstable_dimension']})"
-             for e in record["equilibria"]]
-    return " + ".join(parts)
+    es = record["equilibria"]
+    if len(es) == 1:
+        return f"{es[0]['type']} (unstable dimension {es[0]['unstable_dimension']})"
+    return (" + ".join(e["type"] for e in es) + " (unstable dimensions "
+            + ", ".join(str(e["unstable_dimension"]) for e in es) + ")")
 
 
 def summarize(results) -> dict:
@@ -194,7 +196,7 @@ def draw_maps(folder: str | Path, manifest: dict | None = None) -> list[str]:
                       else f"{part['type']} (unstable dimension {part['unstable_dimension']})")
                 colour(pl)
                 patches.setdefault(pl, []).append(rect(part["parameters"]))
-    fig, ax = plt.subplots(figsize=(7.5, 5.5) if len(axes) == 2 else (8, 1.2 + 0.6 * rows))
+    fig, ax = plt.subplots(figsize=(7, 7) if len(axes) == 2 else (8, 2.0 + 0.5 * rows))
     if "undecided" in patches:  # undecided cells first, hatched; certified parts on top
         ax.add_collection(PatchCollection(patches.pop("undecided"), facecolor=UNDECIDED,
                                           edgecolor="#636363", hatch="///", linewidth=0.0))
@@ -218,16 +220,19 @@ def draw_maps(folder: str | Path, manifest: dict | None = None) -> list[str]:
     handles = [Patch(facecolor=c, label=lab, hatch="///" if lab == "undecided" else None,
                      edgecolor="#636363" if lab == "undecided" else c)
                for lab, c in sorted(labels.items(), key=lambda kv: kv[0] == "undecided")]
-    ax.legend(handles=handles, loc="upper left", bbox_to_anchor=(1.01, 1.0), fontsize=8,
-              title="certified over the whole cell", title_fontsize=8)
-    ax.set_title(f"{manifest.get('model_name', manifest['model'])}: {manifest['cells']} "
-                 "cells, each certified over the whole cell or undecided", fontsize=10)
+    ax.legend(handles=handles, fontsize=8,
+              **({"loc": "upper center", "bbox_to_anchor": (0.5, -0.1)} if len(axes) == 2
+                 else {"loc": "center left", "bbox_to_anchor": (1.01, 0.5)}),
+              ncol=1 if max(len(h.get_label()) for h in handles) > 40 else 2,
+              title="certified for every parameter in the cell (or part)", title_fontsize=8)
+    ax.set_title(f"{manifest.get('model_name', manifest['model'])}\n{manifest['cells']} cells, "
+                 "each a closed parameter box", fontsize=10)
     fig.tight_layout()
     out = []
     for ext in ("png", "svg"):
         path = folder / f"map.{ext}"
         tmp = folder / f".tmp-map.{ext}"
-        fig.savefig(tmp, dpi=130)
+        fig.savefig(tmp, dpi=130, bbox_inches="tight")
         tmp.replace(path)
         out.append(str(path))
     plt.close(fig)
