@@ -1,4 +1,4 @@
-"""The certify command line: inspect, equilibrium, scan, sweep, verify."""
+"""The certify command line: inspect, equilibrium, scan, sweep, gate, report, verify."""
 
 from __future__ import annotations
 
@@ -23,7 +23,9 @@ EXAMPLES = """examples:
   certify equilibrium examples/seasonal-map.toml --period 2
   certify scan examples/chemostat.toml --out chemostat-count.cert.json
   certify verify chemostat-1.cert.json
-  certify sweep examples/fishery.toml --grid h=0..0.3:30 --out fishery-sweep
+  certify sweep examples/fishery.toml --grid c=1..9:16 --grid p=4..6:12 --out fishery-sweep
+  certify gate examples/chemostat-claims.toml --junit claims.xml --out gate-out
+  certify report gate-out fishery-sweep --format html -o report.html
 
 exit codes: 0 everything asked for is certified; 1 something is undecided, not hyperbolic or
 rejected; 2 the input is bad (the message says where and why)."""
@@ -104,6 +106,23 @@ def _parser() -> argparse.ArgumentParser:
     q.add_argument("--resume", action="store_true",
                    help="go on with an interrupted sweep in DIR (same model and arguments)")
 
+    q = sub.add_parser("gate", help="certify every claim of a claims file (for CI and reviews)",
+                       formatter_class=argparse.RawDescriptionHelpFormatter, epilog=EXAMPLES)
+    q.add_argument("claims", metavar="CLAIMS.toml", help="claims file (TOML)")
+    q.add_argument("--junit", metavar="FILE", help="also write JUnit XML (one test per claim)")
+    q.add_argument("--out", metavar="DIR", help="keep every certificate and gate.json here")
+    q.add_argument("--json", action="store_true", help="print one JSON object on stdout")
+
+    q = sub.add_parser("report", help="a Markdown, LaTeX or HTML report of certified results",
+                       formatter_class=argparse.RawDescriptionHelpFormatter, epilog=EXAMPLES)
+    q.add_argument("inputs", nargs="+", metavar="INPUT",
+                   help="certificate files, gate output (gate.json or its folder), sweep folders")
+    q.add_argument("--format", choices=["md", "latex", "html"], default="md",
+                   help="md (default), latex (a tabular to \\input) or html (one file)")
+    q.add_argument("-o", "--output", metavar="FILE", help="write here instead of stdout")
+    q.add_argument("--arithmetic", choices=["flint", "python", "both"], default="both",
+                   help="arithmetic of the re-check of each certificate (default both)")
+
     q = sub.add_parser("verify", help="re-check certificate files with the trusted checker")
     q.add_argument("files", nargs="+", metavar="CERT.json")
     q.add_argument("--arithmetic", choices=["flint", "python", "both"], default="both",
@@ -168,6 +187,10 @@ def main(argv: list[str] | None = None) -> int:
             return _scan(args)
         if args.command == "sweep":
             return _sweep(args)
+        if args.command == "gate":
+            return _gate(args)
+        if args.command == "report":
+            return _report(args)
         return _verify(args)
     except InputError as exc:
         print(f"certify: error: {exc}", file=sys.stderr)
@@ -318,6 +341,77 @@ def _sweep(args) -> int:
         sweep_report.print_summary(result, CAUTION, pictures, note)
     summary = result.summary()
     return 0 if summary["undecided"] == 0 and summary["cells"] == result.manifest["cells"] else 1
+
+
+def _atomic_text(path: str, data: bytes, option: str) -> None:
+    import os
+    import tempfile
+
+    target = Path(path)
+    if not target.resolve().parent.is_dir():
+        raise InputError("the folder does not exist", path, option)
+    fd, tmp = tempfile.mkstemp(prefix=".tmp-", dir=target.resolve().parent)
+    try:
+        with os.fdopen(fd, "wb") as fh:
+            fh.write(data)
+            fh.flush()
+            os.fsync(fh.fileno())
+        os.replace(tmp, target)
+    except BaseException:
+        Path(tmp).unlink(missing_ok=True)
+        raise
+
+
+def _gate(args) -> int:
+    from . import gate
+
+    claims = gate.load_claims(args.claims)
+    out = Path(args.out) if args.out else None
+    if out is not None:
+        try:
+            out.mkdir(parents=True, exist_ok=True)
+        except OSError as exc:
+            raise InputError(f"cannot create the folder ({exc.strerror})", args.out,
+                             "--out") from None
+    if args.junit and not Path(args.junit).resolve().parent.is_dir():
+        raise InputError("the folder does not exist", args.junit, "--junit")
+    outcomes = gate.evaluate(claims, out, ("flint", "python") if out else ("flint",))
+    result = gate.gate_json(claims, outcomes)
+    if out is not None:
+        _atomic_text(str(out / "gate.json"), (json.dumps(result, indent=1) + "\n").encode(),
+                     "--out")
+    if args.junit:
+        _atomic_text(args.junit, gate.junit_xml(claims, outcomes), "--junit")
+    if args.json:
+        print(json.dumps(result, indent=1))
+    else:
+        words = {"holds": "HOLDS", "fails": "FAILS", "undecided": "UNDECIDED"}
+        for o in outcomes:
+            print(f"{words[o.status]:9s} {o.claim.name}: expected {o.claim.expected_text()}; "
+                  f"{o.proved}")
+        held = sum(o.status == "holds" for o in outcomes)
+        print(f"{held} of {len(outcomes)} claims hold"
+              + ("" if held == len(outcomes) else " - the gate fails"))
+        print(CAUTION)
+    return 0 if result["passed"] else 1
+
+
+def _report(args) -> int:
+    from .io import publish
+
+    report = publish.collect(args.inputs, args.arithmetic)
+    if args.output:  # maps referenced relative to the report
+        import os
+
+        base = Path(args.output).resolve().parent
+        report.sweeps = [(f, m, s, svg, os.path.relpath(Path(png).resolve(), base) if png
+                          else None) for f, m, s, svg, png in report.sweeps]
+    text = publish.RENDER[args.format](report)
+    if args.output:
+        _atomic_text(args.output, text.encode(), "-o")
+    else:
+        sys.stdout.write(text)
+    return 0 if not report.rejected else 1
 
 
 def _verify(args) -> int:
