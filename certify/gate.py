@@ -91,6 +91,7 @@ class ClaimsFile:
     path: Path
     model_path: Path
     claims: list[Claim]
+    title: str | None = None
 
 
 def load_claims(path: str | Path) -> ClaimsFile:
@@ -226,7 +227,10 @@ def load_claims(path: str | Path) -> ClaimsFile:
                 fail("expect = \"none\" takes no count", "count" if "count" in c
                      else "unstable_dimensions", i)
         claims.append(claim)
-    return ClaimsFile(p, model_path, claims)
+    title = data.get("title")
+    if title is not None and not isinstance(title, str):
+        fail("the title is a string", "title")
+    return ClaimsFile(p, model_path, claims, title)
 
 
 @dataclass
@@ -334,6 +338,7 @@ def gate_json(claims: ClaimsFile, outcomes: list) -> dict:
     from .io.sweep_store import sha256_file
 
     return {"format": FORMAT, "version": 1, "claims_file": str(claims.path),
+            "title": claims.title,
             "model": str(claims.model_path), "model_sha256": sha256_file(claims.model_path),
             "passed": all(o.status == "holds" for o in outcomes),
             "claims": [{"name": o.claim.name, "status": o.status,

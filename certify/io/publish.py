@@ -119,8 +119,9 @@ def _certificate_row(path: Path, data: bytes, arithmetic: str) -> Row:
     if c["verdict"] == "hyperbolic":
         from ..search.executors import type_word
 
+        stable = c["stable_dimension"]
         row.statement = (f"exactly one {'equilibrium' if kind == 'flow' else 'fixed point'} "
-                         f"in the box: {type_word(kind, c['stable_dimension'], n - c['stable_dimension'])}")
+                         f"in the box: {type_word(kind, stable, n - stable)}")
         if doc.get("period", 1) != 1:
             row.statement += f" (period {doc['period']})"
         row.stable, row.unstable = str(c["stable_dimension"]), str(c["unstable_dimension"])
@@ -199,7 +200,7 @@ def _gate(path: Path, doc: dict, arithmetic: str, report: Report):
                 report.rejected.append((str(cert), exc.reason))
                 sha = "(certificate REJECTED)"
         lines.append((c["name"], c["status"], c["expected"], c["proved"], sha))
-    return (str(path), doc.get("passed", False), lines)
+    return (doc.get("title") or str(path), doc.get("passed", False), lines)
 
 
 def _sweep(folder: Path):
