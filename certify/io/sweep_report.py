@@ -69,10 +69,12 @@ class SweepProgress:
     def update(self, done: int, total: int, stats) -> None:
         import time
 
-        elapsed = max(time.monotonic() - self.bar.tasks[0].start_time, 1e-9) \
-            if self.bar.tasks[0].start_time else 1e-9
+        if not hasattr(self, "start"):
+            self.start = time.monotonic()
+        elapsed = max(time.monotonic() - self.start, 1e-9)
         self.bar.update(self.task, completed=done, total=total, certified=stats.certified,
-                        undecided=stats.undecided, rate=f"{stats.cells / elapsed:.0f}")
+                        undecided=stats.undecided,
+                        rate=f"{stats.cells / elapsed:.0f}" if stats.cells else "-")
 
     def __exit__(self, *exc):
         if self.bar is not None:

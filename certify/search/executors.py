@@ -205,6 +205,8 @@ def drive(job: Job, store, finished: set, workers: int = 1, scheduler: str | Non
     def unfinished(task: Task) -> bool:
         return not finished or any(c not in finished for c in cells_of(task.block))
 
+    if progress is not None:
+        progress(done, total, stats)
     try:
         while stack or in_flight:
             while stack and len(in_flight) < limit:
