@@ -36,6 +36,7 @@ class EquilibriumResult:
     precision: int = DEFAULT_PRECISION
     certificate: dict | None = None
     certificate_path: str | None = None
+    same_as: int | None = None  # the number of an earlier result that is provably the same
 
     @property
     def type(self) -> str | None:
@@ -82,9 +83,29 @@ def equilibrium(model: Model | str | Path, guesses: list[dict[str, float]] | Non
             what = f"no value for {', '.join(missing)}" if missing else \
                 f"'{extra[0]}' is not a variable"
             raise InputError(what, model.source, "--guess")
-    return [_result(model, certify_guess(model, g, period, precision, max_precision,
-                                         arithmetics=arithmetics, first_order=first_order),
-                    period) for g in guesses]
+    results = [_result(model, certify_guess(model, g, period, precision, max_precision,
+                                            arithmetics=arithmetics, first_order=first_order),
+                       period) for g in guesses]
+    _mark_repeats(results)
+    return results
+
+
+def _mark_repeats(results: list[EquilibriumResult]) -> None:
+    """Mark a result whose enclosure lies in an earlier result's uniqueness box (every piece's
+    box, so for every parameter): it is provably the same equilibrium."""
+    for j, r in enumerate(results):
+        if r.enclosure is None:
+            continue
+        for i, earlier in enumerate(results[:j]):
+            if earlier.certificate is None or earlier.same_as is not None or \
+                    len(earlier.certificate.get("pieces", [])) != 1 or \
+                    "sensitivity" in earlier.certificate["pieces"][0]:
+                continue
+            box = earlier.certificate["pieces"][0]["box"]
+            if all(Fraction(lo) <= r.enclosure[v][0] and r.enclosure[v][1] <= Fraction(hi)
+                   for v, (lo, hi) in zip(r.variables, box)):
+                r.same_as = i + 1
+                break
 
 
 def _result(model: Model, attempt, period: int) -> EquilibriumResult:

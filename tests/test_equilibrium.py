@@ -168,3 +168,16 @@ def test_domain_violation_is_undecided_not_a_crash():
     m = make_model(["x"], ["log(x) - a"], {"a": ["-50", "2"]})
     r = only(equilibrium(m, [{"x": 1}]))
     assert r.verdict != "hyperbolic" or r.pieces > 1
+
+
+def test_guesses_reaching_the_same_equilibrium_are_marked():
+    # Two starts near the strain-u state and one at the symmetric state (bundled example): the
+    # second result's enclosure lies in the first one's uniqueness box, so it is the same zero.
+    from certify import equilibrium, load_model
+
+    from .conftest import EXAMPLES
+
+    model = load_model(EXAMPLES / "chemostat.toml")
+    r = equilibrium(model, [{"u": 2.9, "v": 0.35}, {"u": 2.7, "v": 0.4}, {"u": 1.2, "v": 1.2}])
+    assert [x.verdict for x in r] == ["hyperbolic"] * 3
+    assert [x.same_as for x in r] == [None, 1, None]

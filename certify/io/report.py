@@ -101,6 +101,9 @@ def print_results(model: Model, results: list, caution: str) -> None:
         period = f" of period {r.period}" if r.period > 1 else ""
         con.print(f"[bold]{point.capitalize()} {k}{period}[/bold] (Newton from {start})")
         con.print(f"  [{colour}]{verdict_text(r)}[/{colour}]")
+        if r.same_as is not None:
+            con.print(f"  the same equilibrium as {point} {r.same_as} (this enclosure lies "
+                      "in that one's uniqueness box)")
         if r.enclosure:
             table = Table(show_edge=False, box=None, padding=(0, 2))
             table.add_column("  variable")
@@ -150,7 +153,7 @@ def results_json(model: Model, results: list) -> dict:
             "eigenvalues": [{"re": list(bounds_text(*e["re"])), "im": list(bounds_text(*e["im"]))}
                             for e in r.eigenvalues],
             "pieces": r.pieces, "first_order_pieces": r.first_order_pieces,
-            "precision": r.precision,
+            "precision": r.precision, "same_as": r.same_as,
             "certificate": r.certificate_path})
     return {"model": model.source, "results": out}
 
