@@ -236,12 +236,14 @@ def branch_krawczyk(ctx, base, pbox, centre, box, sens, precond, slopes=None):
                                                      else zero))
                 v = v + m * deviation[j]
             image.append(v)
-        # The zero x(p) lies in x~ + A d + K(E, p): J over that second-order form is tighter
-        # than J over X_d, and serves the inertia test.
-        _, tight = evaluate(ctx.tape, ar, [x + v for x, v in zip(at_branch, image)], params,
-                            ctx.period)
-        image = [base.bounds(ar.range(v)) for v in image]
-    return image, [base.bounds(x) for x in e], tight, ar
+        forms, image = image, [base.bounds(ar.range(v)) for v in image]
+        e = [base.bounds(x) for x in e]
+        if all(e_lo < lo and hi < e_hi for (lo, hi), (e_lo, e_hi) in zip(image, e)):
+            # Then the zero x(p) lies in x~ + A d + K(E, p): J over that second-order form is
+            # tighter than J over X_d, and serves the inertia test.
+            _, jac = evaluate(ctx.tape, ar, [x + v for x, v in zip(at_branch, forms)], params,
+                              ctx.period)
+    return image, e, jac, ar
 
 
 def vertex_matrices(ar, m):

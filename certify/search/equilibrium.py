@@ -85,6 +85,7 @@ def newton(system: FloatSystem, kind: str, period: int, x0: np.ndarray,
            iterations: int = 200) -> np.ndarray:
     """Return a float approximation of a zero near x0, or raise Undecided(no-enclosure)."""
     x = np.array(x0, dtype=float)
+    previous = np.inf
     for _ in range(iterations):
         fx, jx = float_residual(system, kind, period, x)
         if not np.all(np.isfinite(fx)) or not np.all(np.isfinite(jx)):
@@ -94,8 +95,11 @@ def newton(system: FloatSystem, kind: str, period: int, x0: np.ndarray,
         except np.linalg.LinAlgError:
             step = np.linalg.lstsq(jx, fx, rcond=None)[0]
         x = x - step
-        if np.linalg.norm(step) <= 1e-15 * (1 + np.linalg.norm(x)):
+        size, scale = np.linalg.norm(step), 1 + np.linalg.norm(x)
+        # converged, or down at rounding level and no longer shrinking
+        if size <= 1e-15 * scale or (size <= 1e-12 * scale and size >= previous / 2):
             break
+        previous = size
     fx, _ = float_residual(system, kind, period, x)
     if not np.all(np.isfinite(x)) or np.linalg.norm(fx) > 1e-6 * (1 + np.linalg.norm(x)):
         raise Undecided("no-enclosure", "Newton's method did not converge from this guess")
