@@ -164,8 +164,8 @@ def test_markdown_and_latex_reports(tmp_path, capsys):
     md = tmp_path / "r.md"
     assert main(["report", str(gate), str(sweep), "-o", str(md)]) == 0
     text = md.read_text()
-    hashes = [line.split("`")[-2] for line in text.splitlines() if line.count("`") >= 2
-              and "SHA-256" not in line]
+    hashes = [line.split("`")[-2] for line in text.splitlines() if line.startswith("|")
+              and line.count("`") >= 2 and len(line.split("`")[-2]) == 64]
     import hashlib
 
     files = {hashlib.sha256(p.read_bytes()).hexdigest() for p in gate.glob("*.cert.json")}

@@ -211,6 +211,7 @@ def _sweep(folder: Path):
     summary = summarize(read_results(folder))
     svg = (folder / "map.svg").read_text() if (folder / "map.svg").is_file() else None
     png = folder / "map.png" if (folder / "map.png").is_file() else None
+    summary["certificate_files"] = sum(1 for _ in (folder / "certificates").glob("*.json"))
     return (str(folder), manifest, summary, svg, png)
 
 
@@ -259,7 +260,9 @@ def markdown(report: Report) -> str:
         out += [f"## Sweep: {manifest.get('model_name', manifest['model'])}", "",
                 f"Grid {', '.join(manifest['arguments']['grid'])}: {summary['cells']} cells, "
                 f"each a closed parameter box; {summary['certified']} certified for every "
-                f"parameter in the cell, {summary['undecided']} undecided.", "",
+                f"parameter in the cell, {summary['undecided']} undecided; "
+                f"{summary['certificate_files']} certificate files in "
+                f"`{folder}/certificates` (re-check with `certify verify`).", "",
                 "| verdict over the whole cell | cells |", "|---|---|"]
         out += [f"| {label} | {n} |" for label, n in summary["rows"]]
         if png:
@@ -340,7 +343,9 @@ def page(report: Report) -> str:
         out.append(f"<p>Grid {e(', '.join(manifest['arguments']['grid']))}: "
                    f"{summary['cells']} cells, each a closed parameter box; "
                    f"{summary['certified']} certified for every parameter in the cell, "
-                   f"{summary['undecided']} undecided.</p>")
+                   f"{summary['undecided']} undecided; {summary['certificate_files']} "
+                   f"certificate files in {e(folder)}/certificates (re-check with certify "
+                   "verify).</p>")
         out.append("<table class=\"sweep\"><thead><tr><th>verdict over the whole cell</th>"
                    "<th>cells</th></tr></thead><tbody>")
         out += [f"<tr><td>{e(label)}</td><td>{n}</td></tr>" for label, n in summary["rows"]]
