@@ -249,8 +249,9 @@ def bench_sweep() -> None:
                        {"a": 1, "b": 2}, guesses=[{"x": 1.2, "y": 2.5}])
     n = 100
     # float baseline: stacked Newton from the same start at every cell centre, then eigvals
-    t = time.perf_counter()
-    for _ in range(3):
+    best = np.inf
+    for _ in range(5):  # best of five: the baseline at its fastest
+        t = time.perf_counter()
         a, b = np.meshgrid(0.5 + 1.5 * (np.arange(n) + 0.5) / n, 1 + 4 * (np.arange(n) + 0.5) / n)
         a, b = a.ravel(), b.ravel()
         x, y = np.full(a.shape, 1.2), np.full(a.shape, 2.5)
@@ -262,7 +263,8 @@ def bench_sweep() -> None:
             step = np.linalg.solve(jac, f[:, :, None])[:, :, 0]
             x, y = x - step[:, 0], y - step[:, 1]
         np.linalg.eigvals(jac)
-    base = (time.perf_counter() - t) / 3
+        best = min(best, time.perf_counter() - t)
+    base = best
     result = sweep(model, {"a": ("0.5", "2", n), "b": ("1", "5", n)}, workers=2,
                    out=tempfile.mkdtemp())
     s, st = result.summary(), result.stats
