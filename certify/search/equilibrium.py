@@ -260,6 +260,12 @@ def certify_branch_piece(problem: Problem, system: FloatSystem, pbox: list[Inter
                                                  slopes_exact)
             if all(e_lo < lo and hi < e_hi for (lo, hi), (e_lo, e_hi) in zip(image, e)):
                 break
+            # E starts at twice the image at E = 0, so image > 1.5 E means the linear part
+            # alone expands (factor > 1) here, and it only grows with E: give up at once.
+            if any(max(abs(lo), abs(hi)) > Fraction(3, 2) * r
+                   for r, (lo, hi) in zip(radius, image)):
+                raise Undecided("box-too-wide", "the first-order branch form did not enclose "
+                                "(the Krawczyk map expands over this parameter box)")
             radius = [max(r, abs(lo), abs(hi)) * Fraction(3, 2) + tiny
                       for r, (lo, hi) in zip(radius, image)]
             if any(r > 1e3 * (1 + abs(c)) for r, c in zip(radius, centre)):
