@@ -169,11 +169,18 @@ def scan(model: Model | str | Path, region: dict[str, Interval] | None = None,
         model = load_model(model)
     if parameters:
         model = model.with_parameters(parameters)
-    region = region or model.region
-    if not region:
-        raise InputError("no region: give one or a [region] table", model.source, "region")
+    region = _exact_region(model, region)
+    return run_scan(model, region, max_boxes, time_limit, progress, arithmetics)
+
+
+def _exact_region(model: Model, region: dict | None) -> dict[str, Interval]:
+    """Return the search region (given, or the model's) with exact ends, one side per variable."""
     from .model import parse_value
 
+    region = region or model.region
+    if not region:
+        raise InputError("no region: give --region or a [region] table", model.source,
+                         "region")
     exact_region = {}
     for v in model.variables:
         if v not in region:
@@ -185,8 +192,7 @@ def scan(model: Model | str | Path, region: dict[str, Interval] | None = None,
             raise InputError(f"the side for '{v}' is empty or has width 0", model.source,
                              "region")
         exact_region[v] = (ends[0], ends[1])
-    region = exact_region
-    return run_scan(model, region, max_boxes, time_limit, progress, arithmetics)
+    return exact_region
 
 
 ARITHMETICS = {"flint": ("flint",), "python": ("python",), "both": ("flint", "python")}
@@ -214,16 +220,20 @@ def verify(source: str | Path | dict, arithmetic: str = "both") -> Verified:
 
 
 def write_certificate(cert: dict, path: str | Path) -> None:
-    """Write a certificate atomically: a temporary file in the same folder, then a rename."""
+    """Write a certificate atomically (see write_atomic)."""
+    write_atomic(path, (json.dumps(cert, indent=1) + "\n").encode())
+
+
+def write_atomic(path: str | Path, data: bytes) -> None:
+    """Write a file atomically: a temporary file in the same folder, fsync, then a rename."""
     import os
     import tempfile
 
     target = Path(path)
-    fd, tmp = tempfile.mkstemp(prefix=".tmp-", suffix=".json", dir=target.parent or ".")
+    fd, tmp = tempfile.mkstemp(prefix=".tmp-", dir=target.resolve().parent)
     try:
-        with os.fdopen(fd, "w") as fh:
-            json.dump(cert, fh, indent=1)
-            fh.write("\n")
+        with os.fdopen(fd, "wb") as fh:
+            fh.write(data)
             fh.flush()
             os.fsync(fh.fileno())
         os.replace(tmp, target)
@@ -329,7 +339,6 @@ def sweep(model: Model | str | Path, grid: dict, guesses: list[dict[str, float]]
     import tempfile
 
     from .io.sweep_store import FORMAT, VERSION, SweepStore
-    from .model import parse_value
     from .search.executors import drive
     from .search.sweep import Job
 
@@ -344,18 +353,7 @@ def sweep(model: Model | str | Path, grid: dict, guesses: list[dict[str, float]]
     if not 0 <= refine <= 8:
         raise InputError("--refine must be between 0 and 8", model.source, "--refine")
     if scan:
-        region = region or model.region
-        if not region:
-            raise InputError("no region: give --region or a [region] table", model.source,
-                             "region")
-        box = []
-        for v in model.variables:
-            if v not in region:
-                raise InputError(f"the region has no side for '{v}'", model.source, "region")
-            lo, hi = region[v]
-            ends = [x if isinstance(x, Fraction) else parse_value(x, model.source, "region")[0]
-                    for x in (lo, hi)]
-            box.append((ends[0], ends[1]))
+        box = list(_exact_region(model, region).values())
         starts = ()
     else:
         box = ()

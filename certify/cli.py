@@ -344,22 +344,11 @@ def _sweep(args) -> int:
 
 
 def _atomic_text(path: str, data: bytes, option: str) -> None:
-    import os
-    import tempfile
+    from .api import write_atomic
 
-    target = Path(path)
-    if not target.resolve().parent.is_dir():
+    if not Path(path).resolve().parent.is_dir():
         raise InputError("the folder does not exist", path, option)
-    fd, tmp = tempfile.mkstemp(prefix=".tmp-", dir=target.resolve().parent)
-    try:
-        with os.fdopen(fd, "wb") as fh:
-            fh.write(data)
-            fh.flush()
-            os.fsync(fh.fileno())
-        os.replace(tmp, target)
-    except BaseException:
-        Path(tmp).unlink(missing_ok=True)
-        raise
+    write_atomic(path, data)
 
 
 def _gate(args) -> int:

@@ -29,7 +29,6 @@ undecided (neither could be proved; the reason is given).
 from __future__ import annotations
 
 import re
-import tomllib
 from dataclasses import dataclass, field
 from fractions import Fraction
 from pathlib import Path
@@ -96,22 +95,12 @@ class ClaimsFile:
 
 def load_claims(path: str | Path) -> ClaimsFile:
     """Return the claims of a file, or raise InputError naming the file, key, line, reason."""
-    from .model.model import _line_of, parse_value
+    from .model.model import _line_of, parse_toml, parse_value, read_text
 
     p = Path(path)
     src = str(path)
-    try:
-        text = p.read_bytes().decode("utf-8")
-    except OSError as exc:
-        raise InputError(f"cannot read the file ({exc.strerror})", src) from None
-    except UnicodeDecodeError:
-        raise InputError("the file is not UTF-8 text", src) from None
-    try:
-        data = tomllib.loads(text, parse_float=str)
-    except tomllib.TOMLDecodeError as exc:
-        m = re.search(r"line (\d+)", str(exc))
-        raise InputError(f"not valid TOML ({exc})", src, None,
-                         int(m.group(1)) if m else None) from None
+    text = read_text(p)
+    data = parse_toml(text, src)
 
     def fail(reason, key=None, index=None):
         line = _line_of(text, "claim" if index is not None else None, key or "", index or 0) \

@@ -26,12 +26,6 @@ def sha256_file(path: str | Path) -> str:
     return hashlib.sha256(Path(path).read_bytes()).hexdigest()
 
 
-def _atomic_json(data, target: Path) -> None:
-    from ..api import write_certificate
-
-    write_certificate(data, target)
-
-
 class SweepStore:
     """The folder of one sweep."""
 
@@ -72,7 +66,9 @@ class SweepStore:
             except OSError as exc:
                 raise InputError(f"cannot create the folder ({exc.strerror})",
                                  str(self.folder), "--out") from None
-            _atomic_json(manifest, self.manifest_path)
+            from ..api import write_certificate  # an atomic JSON write
+
+            write_certificate(manifest, self.manifest_path)
             self.results.write_bytes(b"")
             finished = set()
         (self.folder / CERTIFICATES).mkdir(exist_ok=True)
@@ -95,8 +91,10 @@ class SweepStore:
 
     def certificate(self, name: str, cert: dict) -> str:
         """Write a certificate atomically; return its path relative to the folder."""
+        from ..api import write_certificate
+
         rel = f"{CERTIFICATES}/{name}.cert.json"
-        _atomic_json(cert, self.folder / rel)
+        write_certificate(cert, self.folder / rel)
         return rel
 
     def append(self, records: list[dict]) -> None:

@@ -101,31 +101,39 @@ def _line_of(text: str, table: str | None, key: str, index: int = 0) -> int | No
     return None
 
 
-def model_from_text(text: str, source: str = "<model>") -> Model:
-    """Return the Model described by the TOML text (DESIGN §8)."""
+def parse_toml(text: str, source: str) -> dict:
+    """Return the TOML document, floats kept as their decimal text; errors name the line."""
     try:
-        data = tomllib.loads(text, parse_float=str)
+        return tomllib.loads(text, parse_float=str)
     except tomllib.TOMLDecodeError as exc:
         m = re.search(r"line (\d+)", str(exc))
         raise InputError(f"not valid TOML ({exc})", source, None,
                          int(m.group(1)) if m else None) from None
+
+
+def read_text(path: str | Path) -> str:
+    """Return a TOML input file's text (at most MAX_FILE_BYTES of UTF-8)."""
+    try:
+        raw = Path(path).read_bytes()
+    except OSError as exc:
+        raise InputError(f"cannot read the file ({exc.strerror})", str(path)) from None
+    if len(raw) > MAX_FILE_BYTES:
+        raise InputError(f"an input file may have at most {MAX_FILE_BYTES} bytes", str(path))
+    try:
+        return raw.decode("utf-8")
+    except UnicodeDecodeError:
+        raise InputError("the file is not UTF-8 text", str(path)) from None
+
+
+def model_from_text(text: str, source: str = "<model>") -> Model:
+    """Return the Model described by the TOML text (DESIGN §8)."""
+    data = parse_toml(text, source)
     return _build(data, source, lambda table, key, index=0: _line_of(text, table, key, index))
 
 
 def load_model(path: str | Path) -> Model:
     """Return the Model in a TOML file."""
-    p = Path(path)
-    try:
-        raw = p.read_bytes()
-    except OSError as exc:
-        raise InputError(f"cannot read the file ({exc.strerror})", str(path)) from None
-    if len(raw) > MAX_FILE_BYTES:
-        raise InputError(f"a model file may have at most {MAX_FILE_BYTES} bytes", str(path))
-    try:
-        text = raw.decode("utf-8")
-    except UnicodeDecodeError:
-        raise InputError("the file is not UTF-8 text", str(path)) from None
-    return model_from_text(text, str(path))
+    return model_from_text(read_text(path), str(path))
 
 
 def make_model(variables: list[str], equations: dict[str, str] | list[str],

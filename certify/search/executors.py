@@ -150,8 +150,8 @@ def _publish(job: Job, store, task: Task, result: dict) -> None:
             if isinstance(part.get("certificate"), dict):
                 part["certificate"] = store.certificate(
                     _name(task.block, prefix) + f"-part{m + 1}", part["certificate"])
-            part["parameters"] = {p: interval_json(lo, hi) if not isinstance(lo, str) else
-                                  [lo, hi] for p, (lo, hi) in part["parameters"].items()}
+            part["parameters"] = {p: interval_json(lo, hi)
+                                  for p, (lo, hi) in part["parameters"].items()}
             _describe(job, part)
         _describe(job, found)
 

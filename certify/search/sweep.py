@@ -315,10 +315,7 @@ def run_block(job: Job, task: Task) -> dict:
     box = block_box(job.axes, task.block)
     single = n_cells(task.block) == 1
     outcomes, predictions, proofs = [], [], 0
-    if job.mode == "scan":
-        slots = [None] if not task.inherited else task.inherited
-        if slots[0] is not None:
-            return {"outcomes": slots, "proofs": 0, "predictions": [None]}
+    if job.mode == "scan":  # a scan block is only cut when its count failed: nothing inherited
         found = _attempt_scan(job, box, cut=single)
         proofs += 1
         if found["verdict"] == "undecided" and single and job.refine:
