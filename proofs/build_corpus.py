@@ -179,6 +179,31 @@ def tampered(valid: dict[str, dict]) -> list[tuple[str, object, str, str]]:
     edit("count-zero-on-border", count, lambda d: d["region"].__setitem__(
         "x", [d["region"]["x"][0], d["pieces"][0]["zeros"][0]["centre"][0]]), "on-boundary",
         "the region cut through a zero's enclosure")
+    # Python's parser reads a lone carriage return as a line break: a checker that sliced number
+    # text by column read "3.0" below as "1.0", and so proved a model other than the one shown.
+    for name, shown, read, guess, why in [
+            ("carriage-return-source", "(1.0*x*2 -\r 3.0*x)", "(1.0*x*2 - 1.0*x)", 0.1,
+             "x' = -x (a sink) certified as a source"),
+            ("carriage-return-sink", "(1.0 - x +\r 3.0)", "(1.0 - x + 1.0)", 3.0,
+             "x' = 4 - x certified with its zero at 2")]:
+        base = equilibrium(make_model(["x"], [read], {}), [{"x": guess}], arithmetics=BOTH)
+        edit(name, base[0].certificate, lambda d, t=shown: d["model"]["equations"].__setitem__(
+            "x", t), "model", why)
+    edit("carriage-return-chemostat", valid["chemostat-1"], lambda d: d["model"][
+        "equations"].__setitem__("u", "(" + d["model"]["equations"]["u"] + " - 1 +\r      5)"),
+        "model", "4 added to an equation behind a carriage return")
+    for name, text, why in [("tab", "a / (1 + v**n)\t- k*u", "a tab"),
+                            ("line-separator", "a / (1 + v**n) -\u2028k*u", "U+2028"),
+                            ("look-alike", "a / (1 + v**n) - k*\uff55", "a fullwidth letter u"),
+                            ("comment", "a / (1 + v**n) - k*u # + 1", "a comment")]:
+        edit(f"equation-{name}", saddle, lambda d, t=text: d["model"]["equations"].__setitem__(
+            "u", t), "model", f"{why} in an equation")
+    edit("version-float", saddle, lambda d: d.__setitem__("version", 1.0), "version",
+         "the version written as a float")
+    edit("version-true", saddle, lambda d: d.__setitem__("version", True), "version",
+         "the version written as true")
+    edit("number-unicode-digits", saddle, lambda d: d["pieces"][0]["centre"].__setitem__(
+        0, "\u0661"), "malformed", "an Arabic-Indic digit in a number")
     out.append(("not-json", "this is not JSON {", "malformed", "not JSON"))
     out.append(("deep-nesting", "[" * 100000 + "]" * 100000, "malformed", "nesting 10^5 deep"))
     out.append(("huge-number", '{"format": "certify-certificate", "version": 1, "precision": 5'

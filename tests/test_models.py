@@ -100,6 +100,14 @@ BAD = {
     "deep nesting": ('variables = ["u"]\n[equations]\nu = "' + "(" * 400 + "u" + ")" * 400 +
                      '"\n', "nest", 3),
     "unknown key": ('variables = ["u"]\nspeed = 3\n[equations]\nu = "u"\n', "unknown key", 2),
+    "carriage return": ('variables = ["x"]\n[equations]\nx = "(1.0*x*2 -\\r 3.0*x)"\n',
+                        "only printable ASCII", 3),
+    "tab": ('variables = ["x"]\n[equations]\nx = "x\\t- 1"\n', "only printable ASCII", 3),
+    "look-alike letter": ('variables = ["s"]\n[equations]\ns = "1 - \u017f"\n',
+                          "only printable ASCII", 3),
+    "comment": ('variables = ["x"]\n[equations]\nx = "1 - x # + 3"\n', "comments", 3),
+    "unicode digit": ('variables = ["x"]\n[parameters]\nk = "\u0661"\n[equations]\nx = "k"\n',
+                      "only printable ASCII", 3),
     "bad kind": ('kind = "ode"\nvariables = ["u"]\n[equations]\nu = "u"\n', "kind must be", 1),
 }
 

@@ -238,3 +238,54 @@ def test_mutation_count():
           f"accepted and re-derived: {COUNTS['accepted']}")
     assert COUNTS["tried"] >= 1000
     assert COUNTS["rejected"] >= COUNTS["tried"] // 3
+
+
+# Characters Python's parser reads as line breaks or folds to other letters (NFKC), and comments:
+# a checker that accepted them could prove a model other than the text shows.
+HIDDEN = ["\r", "\t", "\f", "\v", "\u2028", "\u2029", "\x85", "\x00", " # ", "#"]
+TEXT_KINDS = {"insert": 0, "look-alike": 0}
+
+
+def _look_alike(ch: str) -> str:
+    """Return a character that NFKC folds to the ASCII letter or digit ch."""
+    if ch == "s":
+        return "\u017f"  # long s
+    return chr(ord(ch) - 0x21 + 0xFF01)  # the fullwidth form
+
+
+@st.composite
+def text_mutants(draw):
+    doc = copy.deepcopy(draw(st.sampled_from(BASES)))
+    var = draw(st.sampled_from(sorted(doc["model"]["equations"])))
+    text = doc["model"]["equations"][var]
+    alnum = [i for i, ch in enumerate(text) if ch.isascii() and ch.isalnum()]
+    if draw(st.booleans()) or not alnum:
+        at = draw(st.integers(0, len(text)))
+        text = text[:at] + draw(st.sampled_from(HIDDEN)) + text[at:]
+        kind = "insert"
+    else:
+        at = draw(st.sampled_from(alnum))
+        text = text[:at] + _look_alike(text[at]) + text[at + 1:]
+        kind = "look-alike"
+    doc["model"]["equations"][var] = text
+    return kind, doc
+
+
+@settings(max_examples=300, deadline=None, suppress_health_check=list(HealthCheck))
+@given(text_mutants())
+def test_hidden_line_breaks_look_alikes_and_comments_are_always_rejected(mutant):
+    kind, doc = mutant
+    for arithmetic in ("flint", "python"):
+        try:
+            check(doc, arithmetic)
+        except CertificateRejected as exc:
+            assert exc.code == "model", exc
+        else:
+            raise AssertionError(f"accepted {doc['model']['equations']!r}")
+    TEXT_KINDS[kind] += 1
+
+
+def test_every_text_mutant_kind_was_tried():
+    if sum(TEXT_KINDS.values()) == 0:
+        return  # the property test was deselected
+    assert all(n >= 50 for n in TEXT_KINDS.values()), TEXT_KINDS

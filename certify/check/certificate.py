@@ -28,7 +28,7 @@ MAX_BYTES = 50_000_000
 MAX_DIMENSION = 200
 MAX_PIECES = 100_000
 MAX_NUMBER_CHARS = 4000
-_RATIONAL = re.compile(r"-?\d+(/\d+)?\Z")
+_RATIONAL = re.compile(r"-?[0-9]+(/[0-9]+)?\Z")
 _NAME = re.compile(r"[A-Za-z_][A-Za-z0-9_]*\Z")
 
 
@@ -133,10 +133,10 @@ def check(data: dict, arithmetic: str = "flint") -> Verified:
     """Return what the certificate proves, or raise CertificateRejected."""
     _dict(data, {"format", "version", "model", "claim", "precision"}, "certificate",
           {"tool", "period", "pieces", "note", "region"})
-    if data["format"] != FORMAT:
+    if type(data["format"]) is not str or data["format"] != FORMAT:
         raise CertificateRejected("version", "format", f"found {data['format']!r}, "
                                   f"expected {FORMAT!r}")
-    if data["version"] != VERSION:
+    if type(data["version"]) is not int or data["version"] != VERSION:
         raise CertificateRejected("version", "version", f"found {data['version']!r}, "
                                   f"expected {VERSION}")
     model = _dict(data["model"], {"kind", "variables", "parameters", "equations"}, "model",

@@ -17,7 +17,7 @@ MAX_DIGITS = 60  # significant digits in one number
 MAX_DECIMAL_EXPONENT = 400  # |e| in a literal such as 1e-9
 MAX_INT_EXPONENT = 1000  # |n| in x**n with an integer literal n
 
-_NUMBER = re.compile(r"(\d[\d_]*)?(\.\d[\d_]*|\.)?([eE][+-]?\d+)?")
+_NUMBER = re.compile(r"([0-9][0-9_]*)?(\.[0-9][0-9_]*|\.)?([eE][+-]?[0-9]+)?")
 _BINARY = {ast.Add: "add", ast.Sub: "sub", ast.Mult: "mul", ast.Div: "div", ast.Pow: "pow"}
 
 
@@ -55,6 +55,7 @@ def parse_expression(text: str, names: set[str] | frozenset[str]) -> tuple:
         raise ExpressionError("an expression must be a string")
     if len(text) > MAX_TEXT:
         raise ExpressionError(f"an expression may have at most {MAX_TEXT} characters")
+    check_characters(text)
     if "^" in text:
         col = text.index("^") + 1
         raise ExpressionError("use ** for powers", "^", col)
@@ -66,6 +67,22 @@ def parse_expression(text: str, names: set[str] | frozenset[str]) -> tuple:
     except (RecursionError, MemoryError, ValueError):
         raise ExpressionError(f"nesting deeper than {MAX_DEPTH}") from None
     return _walk(tree.body, text.strip(), frozenset(names), 0)
+
+
+def check_characters(text: str) -> None:
+    """Refuse any character but printable ASCII and the space, and the comment sign.
+
+    Python's parser reads a lone carriage return, a form feed or U+2028 as a line break and
+    folds look-alike letters (NFKC), so text outside this set could mean something other than
+    it shows; within it, every node's column is its offset in the text.
+    """
+    for i, ch in enumerate(text):
+        if not " " <= ch <= "~":
+            raise ExpressionError("an expression may contain only printable ASCII characters "
+                                  "and spaces", f"U+{ord(ch):04X}", i + 1)
+        if ch in "#\\":
+            raise ExpressionError("comments and backslashes are not allowed in an expression",
+                                  ch, i + 1)
 
 
 def _walk(node: ast.AST, src: str, names: frozenset[str], depth: int) -> tuple:
@@ -117,10 +134,8 @@ def _walk(node: ast.AST, src: str, names: frozenset[str], depth: int) -> tuple:
 
 
 def _segment(src: str, node: ast.AST) -> str:
-    """Return the source text of a node (a slice for one-line ASCII text, the common case)."""
-    if src.isascii() and "\n" not in src:
-        return src[node.col_offset:node.end_col_offset]
-    return ast.get_source_segment(src, node) or ""
+    """Return the source text of a node (the text is one line of ASCII, see check_characters)."""
+    return src[node.col_offset:node.end_col_offset]
 
 
 def _check_exponent(node: ast.AST, src: str) -> None:
@@ -191,6 +206,7 @@ def parse_rational(text: str) -> Fraction:
     """Return the exact value of '-3', '0.1', '1e-9' or '8/3' (a sign, then a number or p/q)."""
     if not isinstance(text, str):
         raise ExpressionError("expected a number written as text")
+    check_characters(text)
     body = text.strip()
     sign = -1 if body.startswith("-") else 1
     body = body[1:].strip() if body[:1] in "+-" and body else body
