@@ -204,6 +204,34 @@ def tampered(valid: dict[str, dict]) -> list[tuple[str, object, str, str]]:
          "the version written as true")
     edit("number-unicode-digits", saddle, lambda d: d["pieces"][0]["centre"].__setitem__(
         0, "\u0661"), "malformed", "an Arabic-Indic digit in a number")
+    # Hostile sizes: each is refused by a bound checked before the work it would cost.
+    edit("not-hyperbolic-huge-power", hopf, lambda d: d["model"]["equations"].__setitem__(
+        "x", d["model"]["equations"]["x"] + " + 0*((((x**1000)**1000)**1000)**1000)"),
+        "budget", "an exact evaluation of 2^(10^12)")
+    rotation = ["-x1", "x0"] + [f"-x{i}" for i in range(2, 13)]
+    edit("not-hyperbolic-dimension-13", hopf, lambda d: d.update(model=dict(
+        d["model"], variables=[f"x{i}" for i in range(13)], parameters={},
+        equations={f"x{i}": r for i, r in enumerate(rotation)}),
+        claim={"verdict": "not hyperbolic", "point": ["0"] * 13}), "budget",
+        "a true claim (eigenvalues +-i) above the dimension of exact proofs")
+    edit("precision-sine", valid["transcendental-1"], lambda d: d.__setitem__(
+        "precision", 20000), "budget", "20,000 bits for the elementary functions")
+    edit("precision-wide", saddle, lambda d: d.__setitem__("precision", 100000), "budget",
+         "100,000 bits for two variables")
+
+    def huge_inertia(doc):  # each entry moved by 1/(7^2000 + k): still definite, still symmetric
+        s = doc["pieces"][0]["inertia_matrix"]
+        for i in range(3):
+            for j in range(3):
+                q = Fraction(s[i][j]) + Fraction(1, 7**2000 + 2 * (3 * min(i, j) + max(i, j)))
+                s[i][j] = f"{q.numerator}/{q.denominator}"
+
+    edit("inertia-huge-denominators", valid["lorenz-rho28-2"], huge_inertia, "budget",
+         "an inertia matrix with six different 1,700-digit denominators")
+    edit("huge-rational", saddle, lambda d: d["pieces"][0]["centre"].__setitem__(
+        0, "1" * 5000), "malformed", "a number with 5,000 digits")
+    edit("equation-nested-1e5", saddle, lambda d: d["model"]["equations"].__setitem__(
+        "u", "(" * 10**5 + "u" + ")" * 10**5), "model", "parentheses nested 10^5 deep")
     out.append(("not-json", "this is not JSON {", "malformed", "not JSON"))
     out.append(("deep-nesting", "[" * 100000 + "]" * 100000, "malformed", "nesting 10^5 deep"))
     out.append(("huge-number", '{"format": "certify-certificate", "version": 1, "precision": 5'

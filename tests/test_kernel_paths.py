@@ -14,7 +14,7 @@ from certify.check import CertificateRejected, check, load
 from certify.check import certificate as cert_module
 from certify.check import exact
 from certify.check.ad import evaluate
-from certify.check.arith import ArbArithmetic, DomainError, ExactArithmetic
+from certify.check.arith import ArbArithmetic, BudgetError, DomainError, ExactArithmetic
 from certify.check.dyadic import DyadicArithmetic
 from certify.check.expr import ExpressionError, Tape, parse_expression, parse_rational
 
@@ -236,6 +236,25 @@ def test_exact_division_and_interval_parameters_in_a_not_hyperbolic_claim():
     with pytest.raises(CertificateRejected) as info:
         check(doc)
     assert info.value.code == "not-exact"
+
+
+def test_exact_size_bounds_refuse_before_computing():
+    doc = json.loads((VALID / "brusselator-hopf-1.cert.json").read_text())
+    big = "7" * 3000  # about 10,000 bits: within the evaluation bound, over the polynomial's
+    doc["model"]["parameters"]["a"] = [big, big]
+    doc["model"]["equations"] = {"x": "a*x - a", "y": "-y*(x - 1)"}
+    doc["claim"]["point"] = ["1", "0"]
+    with pytest.raises(CertificateRejected, match="common denominator|matrix with") as info:
+        check(doc)
+    assert info.value.code == "budget"
+    doc["model"]["equations"] = {"x": "a*x - a + 0*(x*a/(1 + x**2 + a))**900", "y": "y"}
+    with pytest.raises(CertificateRejected, match="more than 65536 bits"):
+        check(doc)
+    assert exact.inertia([[F(1, 3**20_000)]]) == (1, 0)  # 31,700 bits: within the bound
+    with pytest.raises(BudgetError, match="common denominator"):
+        exact.inertia([[F(1, 3**30_000)]])
+    with pytest.raises(BudgetError, match="matrix with"):
+        exact.inertia([[F(3**30_000)]])
 
 
 # ------------------------------------------------------------------ count certificates

@@ -60,6 +60,47 @@ def run(tape: Tape, ar, inputs: list[Dual], params: list) -> list[Dual]:
     return [slots[i] for i in tape.outputs]
 
 
+def exact_size_bound(tape: Tape, state: list[Fraction], params: list[Fraction], period: int,
+                     limit: int) -> int:
+    """Return a bound on the size of every value and derivative of an exact evaluation.
+
+    A size bounds the bits of a numerator and a denominator: a + b, a * b and a / b have size
+    at most s(a) + s(b) + 1, a**n (|n| <= 1000 on this path) at most |n| s(a); a derivative
+    rule is a sum of such products. Computed from the sizes alone, before any arithmetic, and
+    capped just above the limit so that the bound itself stays small.
+    """
+    def size(q: Fraction) -> int:
+        return max(q.numerator.bit_length(), q.denominator.bit_length())
+
+    def plus(a: int, b: int) -> int:  # the sum of two terms, 0 meaning "no term"
+        return min(a + b + 1 if a and b else a or b, limit + 1)
+
+    values, grads = [size(q) for q in state], [1] * len(state)
+    for _ in range(period):
+        vs = values + [size(q) for q in params]
+        ds = grads + [0] * len(params)
+        for op, a, b, _ in tape.code:
+            if op == "num":
+                v, d = size(a), 0
+            elif op in ("add", "sub"):
+                v, d = plus(vs[a], vs[b]), plus(ds[a], ds[b])
+            elif op == "neg":
+                v, d = vs[a], ds[a]
+            elif op == "pow":
+                v = min(1000 * vs[a], limit + 1)
+                d = plus(11 + v, ds[a]) if ds[a] else 0
+            elif op == "call":  # refused by exact arithmetic: evaluation stops there
+                v, d = 0, 0
+            else:  # mul, div
+                v = plus(vs[a], vs[b])
+                d = plus(plus(ds[a], vs[b]) if ds[a] else 0, plus(ds[b], v) if ds[b] else 0)
+                d = plus(d, vs[b]) if op == "div" and d else d
+            vs.append(v)
+            ds.append(d)
+        values, grads = [vs[i] for i in tape.outputs], [ds[i] for i in tape.outputs]
+    return max(values + grads + [0])
+
+
 def _power(ar, base: Dual, expo: Dual, what: str) -> Dual:
     """Return base**expo: an integer power for an exact integer exponent, else exp(e log b)."""
     vb, gb = base

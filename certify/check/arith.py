@@ -22,6 +22,10 @@ class DomainError(ArithmeticError):
         super().__init__(f"{reason} in '{what}'")
 
 
+class BudgetError(ArithmeticError):
+    """An exact computation whose size bound, known before it starts, is over the limit."""
+
+
 def power_by_squaring(one, base, n: int):
     """Return base**n for an integer n >= 0 by repeated squaring (one: the unit)."""
     result = one

@@ -14,9 +14,9 @@ from dataclasses import dataclass
 from fractions import Fraction
 
 from . import exact
-from .ad import evaluate
+from .ad import evaluate, exact_size_bound
 from .affine import AffineArithmetic, branch_krawczyk, vertex_matrices
-from .arith import ArbArithmetic, DomainError, ExactArithmetic
+from .arith import ArbArithmetic, BudgetError, DomainError, ExactArithmetic
 from .expr import ExpressionError, Tape, parse_expression
 
 Bounds = tuple[Fraction, Fraction]
@@ -28,6 +28,8 @@ MAX_BYTES = 50_000_000
 MAX_DIMENSION = 200
 MAX_PIECES = 100_000
 MAX_NUMBER_CHARS = 4000
+MAX_EXACT_BITS = 65_536  # any number of an exact evaluation (the not-hyperbolic claim)
+MAX_FUNCTION_WORK = 2**28  # elementary calls x period x precision^2
 _RATIONAL = re.compile(r"-?[0-9]+(/[0-9]+)?\Z")
 _NAME = re.compile(r"[A-Za-z_][A-Za-z0-9_]*\Z")
 
@@ -172,6 +174,7 @@ def check(data: dict, arithmetic: str = "flint") -> Verified:
     if kind == "flow" and period != 1:
         raise CertificateRejected("malformed", "period", "a flow has no period")
     prec = _integer(data["precision"], 30, 100_000, "precision")
+    _check_budget(tape, n, period, prec)
     claim = data["claim"]
     if not isinstance(claim, dict) or claim.get("verdict") not in ("hyperbolic",
                                                                     "not hyperbolic", "count"):
@@ -235,6 +238,18 @@ def check(data: dict, arithmetic: str = "flint") -> Verified:
     return Verified({"verdict": "hyperbolic", "stable_dimension": stable,
                      "unstable_dimension": unstable}, kind, variables, pbox, enclosures,
                     len(pieces), ar.name)
+
+
+def _check_budget(tape: Tape, n: int, period: int, prec: int) -> None:
+    """Refuse work whose size is over the bounds of proofs/FORMAT.md, before doing any."""
+    if n * prec > exact.MAX_ELIMINATION_BITS:
+        raise CertificateRejected("budget", "precision", f"found {n} variables at {prec} bits, "
+                                  f"expected n x precision <= {exact.MAX_ELIMINATION_BITS}")
+    calls = sum(1 if op == "call" else 2 for op, *_ in tape.code if op in ("call", "pow"))
+    if calls * period * prec**2 > MAX_FUNCTION_WORK:
+        raise CertificateRejected("budget", "precision", f"found {calls} function calls x "
+                                  f"period {period} x {prec}^2 bits, expected at most "
+                                  f"{MAX_FUNCTION_WORK}")
 
 
 def _other_arithmetic(name: str, prec: int):
@@ -383,13 +398,15 @@ def check_inertia(ctx: Problem, ar, jac, s, stable: int, where: str) -> None:
         families = [(lo, hi)]
     try:
         definite = all(exact.interval_positive_definite(lo, hi) for lo, hi in families)
+        counts = exact.inertia(s) if definite else None
     except DomainError as exc:
         raise CertificateRejected("domain", where, str(exc)) from None
+    except BudgetError as exc:
+        raise CertificateRejected("budget", f"{where}.inertia_matrix", str(exc)) from None
     if not definite:
         form = "-(J^T S + S J)" if ctx.kind == "flow" else "S - J^T S J"
         raise CertificateRejected("not-definite", f"{where}.inertia_matrix",
                                   f"could not prove {form} positive definite over J(X, P)")
-    counts = exact.inertia(s)
     if counts is None or counts[0] != stable:
         found = "undetermined" if counts is None else f"{counts[0]} positive eigenvalues"
         raise CertificateRejected("inertia", f"{where}.inertia_matrix", f"found {found}, "
@@ -403,15 +420,22 @@ def _check_not_hyperbolic(ctx: Problem, point: list[Fraction]) -> str:
         if lo != hi:
             raise CertificateRejected("not-exact", f"model.parameters.{p}", "found an interval, "
                                       "expected an exact value")
+    params = [ctx.pbox[p][0] for p in ctx.params]
+    if exact_size_bound(ctx.tape, point, params, ctx.period, MAX_EXACT_BITS) > MAX_EXACT_BITS:
+        raise CertificateRejected("budget", "claim.point", "found an exact evaluation that "
+                                  f"may need numbers of more than {MAX_EXACT_BITS} bits")
     try:
-        g, jac = evaluate(ctx.tape, ar, point, [ctx.pbox[p][0] for p in ctx.params], ctx.period)
+        g, jac = evaluate(ctx.tape, ar, point, params, ctx.period)
     except DomainError as exc:
         raise CertificateRejected("not-exact", "claim.point", str(exc)) from None
     residual = [gi - (xi if ctx.kind == "map" else 0) for gi, xi in zip(g, point)]
     if any(r != 0 for r in residual):
         raise CertificateRejected("not-zero", "claim.point", "found f(point) != 0, "
                                   "expected an exact equilibrium")
-    poly = exact.charpoly(jac)
+    try:
+        poly = exact.charpoly(jac)
+    except BudgetError as exc:
+        raise CertificateRejected("budget", "claim.point", str(exc)) from None
     found = (exact.imaginary_axis_root if ctx.kind == "flow" else exact.unit_circle_root)(poly)
     if found is None:
         axis = "imaginary axis" if ctx.kind == "flow" else "unit circle"

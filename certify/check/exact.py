@@ -5,17 +5,34 @@ from __future__ import annotations
 from fractions import Fraction
 from math import lcm
 
+from .arith import BudgetError
+
 Matrix = list[list[Fraction]]
 Poly = list[Fraction]  # coefficients, constant term first
 
+# Size bounds, checked before the work starts (proofs/FORMAT.md, "Bounds"). Fraction-free
+# elimination on an n x n integer matrix with entries of h bits keeps every entry a minor, of at
+# most n (h + log2 n) bits (Hadamard); the characteristic polynomial's coefficients stay within
+# the same bound, and its root tests grow with the degree.
+MAX_ELIMINATION_BITS = 40_000  # n * (h + log2 n) for definiteness and inertia
+MAX_CHARPOLY_DIMENSION = 12
+MAX_CHARPOLY_BITS = 4_096  # n * (h + log2 n) for the exact characteristic polynomial
 
-def _integer_matrix(a: Matrix) -> list[list[int]]:
-    """Return a positive multiple of the rational matrix a with integer entries."""
-    d = 1
+
+def _integer_matrix(a: Matrix, limit: int = MAX_ELIMINATION_BITS) -> tuple[list[list[int]], int]:
+    """Return (D, d): D = d a has integer entries, d > 0; refuse when n (h + log2 n) > limit."""
+    n, d = len(a), 1
     for row in a:
         for q in row:
             d = lcm(d, q.denominator)
-    return [[int(q * d) for q in row] for row in a]
+            if n * d.bit_length() > limit:
+                raise BudgetError(f"a common denominator of more than {limit // n} bits")
+    m = [[q.numerator * (d // q.denominator) for q in row] for row in a]
+    h = max((abs(v).bit_length() for row in m for v in row), default=0)
+    if n * (h + n.bit_length()) > limit:
+        raise BudgetError(f"an exact {n} x {n} matrix with {h}-bit entries (limit: n (h + log2 "
+                          f"n) <= {limit} bits)")
+    return m, d
 
 
 def leading_minor_signs(a: Matrix) -> list[int] | None:
@@ -27,7 +44,7 @@ def leading_minor_signs(a: Matrix) -> list[int] | None:
     column i (a congruence, which keeps the inertia, Sylvester 1852), making m_ii = 2 m_ij.
     Returns None when the remaining block is zero (the matrix is singular).
     """
-    m = _integer_matrix(a)
+    m, _ = _integer_matrix(a)
     n, prev, signs = len(m), 1, []
     for k in range(n):
         piv = next((i for i in range(k, n) if m[i][i] != 0), None)
@@ -89,36 +106,38 @@ def interval_positive_definite(lo: Matrix, hi: Matrix) -> bool:
     With centre C and radius R: for symmetric M = C + D with |D| <= R, lambda_min(M) >=
     lambda_min(C) - rho(R) (Weyl, and rho(D) <= rho(|D|) <= rho(R) by Perron-Frobenius), and
     rho(R) <= max row sum of R. So C - sigma*I positive definite with sigma that row sum suffices
-    (the midpoint-radius test of Rohn 1994). Everything is scaled by 2d, d a common denominator,
-    so the test runs on integers: 2d C = d(lo + hi), 2d R = d(hi - lo).
+    (the midpoint-radius test of Rohn 1994), decided on the integer matrix 2d (C - sigma I).
     """
     n = len(lo)
     # Each matrix of the family is symmetric, so the upper entry (i, j) encloses both m_ij, m_ji.
-    up = [(i, j) for i in range(n) for j in range(i, n)]
-    d = 1
-    for i, j in up:
-        d = lcm(d, lo[i][j].denominator, hi[i][j].denominator)
-    low = {(i, j): lo[i][j].numerator * (d // lo[i][j].denominator) for i, j in up}
-    high = {(i, j): hi[i][j].numerator * (d // hi[i][j].denominator) for i, j in up}
     key = [[(i, j) if i <= j else (j, i) for j in range(n)] for i in range(n)]
-    centre = [[low[k] + high[k] for k in row] for row in key]
-    sigma = max(sum(high[k] - low[k] for k in row) for row in key)
-    return _integer_positive_definite([[c - (sigma if i == j else 0) for j, c in enumerate(row)]
-                                       for i, row in enumerate(centre)])
+    centre = [[lo[i][j] + hi[i][j] for i, j in row] for row in key]
+    sigma = max(sum(hi[i][j] - lo[i][j] for i, j in row) for row in key)
+    shifted = [[c - (sigma if i == j else 0) for j, c in enumerate(row)]
+               for i, row in enumerate(centre)]
+    return _integer_positive_definite(_integer_matrix(shifted)[0])
 
 
 def charpoly(a: Matrix) -> Poly:
-    """Return det(t I - a), constant term first (Faddeev-LeVerrier, exact over the rationals)."""
+    """Return det(t I - a), constant term first (Faddeev-LeVerrier over the integers).
+
+    With D = d a integer, the Faddeev-LeVerrier matrices and coefficients of D are integers and
+    each division by k is exact; det(t I - a) has the coefficients c_k(D) / d^(n - k).
+    """
     n = len(a)
-    coeffs = [Fraction(0)] * n + [Fraction(1)]
-    m = [[Fraction(0)] * n for _ in range(n)]
+    if n > MAX_CHARPOLY_DIMENSION:
+        raise BudgetError(f"an exact characteristic polynomial of degree {n} (at most "
+                          f"{MAX_CHARPOLY_DIMENSION})")
+    ints, d = _integer_matrix(a, MAX_CHARPOLY_BITS)
+    coeffs = [0] * n + [1]
+    m = [[0] * n for _ in range(n)]
     for k in range(1, n + 1):
         for i in range(n):
             m[i][i] += coeffs[n - k + 1]
-        am = [[sum(a[i][t] * m[t][j] for t in range(n)) for j in range(n)] for i in range(n)]
-        coeffs[n - k] = -sum(am[i][i] for i in range(n)) / k
+        am = [[sum(ints[i][t] * m[t][j] for t in range(n)) for j in range(n)] for i in range(n)]
+        coeffs[n - k] = -sum(am[i][i] for i in range(n)) // k
         m = am
-    return coeffs
+    return [Fraction(c, d ** (n - k)) for k, c in enumerate(coeffs)]
 
 
 def _trim(p: Poly) -> Poly:

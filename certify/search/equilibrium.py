@@ -513,7 +513,12 @@ def _try_not_hyperbolic(model: Model, problem: Problem, x0: np.ndarray, attempt:
         cert = certificate(model, problem.period, DEFAULT_PRECISION, claim, [])
         try:
             verified = check(cert)
-        except CertificateRejected:
+        except CertificateRejected as exc:
+            if exc.code == "budget":  # no smaller denominator can make the work smaller
+                attempt.reason = "budget"
+                attempt.message += f"; an exact proof of the eigenvalue on the axis was not " \
+                                   f"tried: {exc.reason}"
+                return
             continue
         attempt.verdict, attempt.reason = "not hyperbolic", None
         axis = "imaginary axis" if model.kind == "flow" else "unit circle"
