@@ -219,29 +219,6 @@ def verify(source: str | Path | dict, arithmetic: str = "both") -> Verified:
     return verified
 
 
-def write_certificate(cert: dict, path: str | Path) -> None:
-    """Write a certificate atomically (see write_atomic)."""
-    write_atomic(path, (json.dumps(cert, indent=1) + "\n").encode())
-
-
-def write_atomic(path: str | Path, data: bytes) -> None:
-    """Write a file atomically: a temporary file in the same folder, fsync, then a rename."""
-    import os
-    import tempfile
-
-    target = Path(path)
-    fd, tmp = tempfile.mkstemp(prefix=".tmp-", dir=target.resolve().parent)
-    try:
-        with os.fdopen(fd, "wb") as fh:
-            fh.write(data)
-            fh.flush()
-            os.fsync(fh.fileno())
-        os.replace(tmp, target)
-    except BaseException:
-        Path(tmp).unlink(missing_ok=True)
-        raise
-
-
 class SweepResult:
     """A finished sweep: iterate over its cells (read back from results.jsonl, streaming)."""
 

@@ -111,6 +111,8 @@ def _parser() -> argparse.ArgumentParser:
     q.add_argument("claims", metavar="CLAIMS.toml", help="claims file (TOML)")
     q.add_argument("--junit", metavar="FILE", help="also write JUnit XML (one test per claim)")
     q.add_argument("--out", metavar="DIR", help="keep every certificate and gate.json here")
+    q.add_argument("--models-anywhere", action="store_true",
+                   help="allow a model outside the claims file's folder")
     q.add_argument("--json", action="store_true", help="print one JSON object on stdout")
 
     q = sub.add_parser("report", help="a Markdown, LaTeX or HTML report of certified results",
@@ -212,15 +214,15 @@ def _inspect(args) -> int:
 
 
 def _equilibrium(args) -> int:
-    from .api import equilibrium, write_certificate
+    from .api import equilibrium
     from .io import report
 
     model = _load(args)
     guesses = [parse_guess(g) for g in args.guess] or None
     if args.precision < 30 or args.max_precision > 100_000:
         raise InputError("precision must be between 30 and 100000 bits", None, "--precision")
-    if args.out and not Path(args.out).resolve().parent.is_dir():
-        raise InputError("the folder does not exist", args.out, "--out")
+    if args.out:
+        writable_file(args.out, "--out")
     results = equilibrium(model, guesses, period=args.period, precision=args.precision,
                           max_precision=max(args.max_precision, args.precision),
                           arithmetics=("flint", "python") if args.out else ("flint",))
@@ -231,7 +233,7 @@ def _equilibrium(args) -> int:
             path = out if len(with_cert) == 1 else out.with_name(
                 f"{out.name.removesuffix('.json').removesuffix('.cert')}-{k}"
                 f"{'.cert.json' if out.name.endswith('.cert.json') else '.json'}")
-            write_certificate(r.certificate, path)
+            _write_json(r.certificate, path, "--out")
             r.certificate_path = str(path)
     if args.json:
         print(json.dumps(report.results_json(model, results), indent=1))
@@ -257,7 +259,7 @@ def parse_region(text: str, model) -> dict[str, tuple[Fraction, Fraction]]:
 
 
 def _scan(args) -> int:
-    from .api import scan, write_certificate
+    from .api import scan
     from .io import report
 
     model = _load(args)
@@ -266,14 +268,14 @@ def _scan(args) -> int:
         raise InputError("no region: give --region or a [region] table", model.source, "region")
     if args.max_boxes < 1 or args.time_limit <= 0:
         raise InputError("the budget must be positive", None, "--max-boxes/--time-limit")
-    if args.out and not Path(args.out).resolve().parent.is_dir():
-        raise InputError("the folder does not exist", args.out, "--out")
+    if args.out:
+        writable_file(args.out, "--out")
     with report.scan_progress(enabled=not args.json) as progress:
         result = scan(model, region, max_boxes=args.max_boxes, time_limit=args.time_limit,
                       progress=progress, arithmetics=("flint", "python") if args.out
                       else ("flint",))
     if args.out and result.certificate is not None:
-        write_certificate(result.certificate, args.out)
+        _write_json(result.certificate, args.out, "--out")
         result.certificate_path = args.out
     if args.json:
         print(json.dumps(report.scan_json(result), indent=1))
@@ -320,6 +322,7 @@ def _sweep(args) -> int:
         raise InputError("--region goes with --scan", None, "--region")
     region = parse_region(args.region, model) if args.region else None
     guesses = [parse_guess(g) for g in args.guess] or None
+    writable_folder(args.out, "--out", create=False)
     with sweep_report.SweepProgress(enabled=not args.json) as progress:
         result = sweep(args.model, grid, guesses=guesses, scan=args.scan, region=region,
                        parameters=overrides or None, refine=args.refine, period=args.period,
@@ -343,27 +346,67 @@ def _sweep(args) -> int:
     return 0 if summary["undecided"] == 0 and summary["cells"] == result.manifest["cells"] else 1
 
 
-def _atomic_text(path: str, data: bytes, option: str) -> None:
-    from .api import write_atomic
+def writable_file(path: str, option: str) -> None:
+    """Refuse, before any work, an output file that could not be written."""
+    import tempfile
 
-    if not Path(path).resolve().parent.is_dir():
+    target = Path(path)
+    if target.is_dir():
+        raise InputError("this is a folder; give a file name", path, option)
+    folder = target.resolve().parent
+    if not folder.is_dir():
         raise InputError("the folder does not exist", path, option)
-    write_atomic(path, data)
+    try:
+        tempfile.TemporaryFile(dir=folder).close()
+    except OSError as exc:
+        raise InputError(f"cannot write in the folder ({exc.strerror})", path, option) from None
+
+
+def writable_folder(path: str, option: str, create: bool = True) -> Path:
+    """Refuse, before any work, an output folder that could not be written; create it if asked.
+
+    Without create, a missing folder is only checked to be creatable (its nearest existing
+    parent writable), so that a run refused later for bad input leaves nothing behind.
+    """
+    folder = Path(path)
+    if folder.exists() and not folder.is_dir():
+        raise InputError("this is a file; give a folder", path, option)
+    if create:
+        try:
+            folder.mkdir(parents=True, exist_ok=True)
+        except OSError as exc:
+            raise InputError(f"cannot create the folder ({exc.strerror})", path,
+                             option) from None
+    existing = folder.resolve()
+    while not existing.exists():
+        existing = existing.parent
+    if not existing.is_dir():
+        raise InputError(f"cannot create the folder ({existing} is a file)", path, option)
+    writable_file(str(existing / "probe"), option)
+    return folder
+
+
+def _write_json(doc: dict, path: str | Path, option: str) -> None:
+    _atomic_text(str(path), (json.dumps(doc, indent=1) + "\n").encode(), option)
+
+
+def _atomic_text(path: str, data: bytes, option: str) -> None:
+    from .io.files import write_atomic
+
+    writable_file(path, option)
+    try:
+        write_atomic(path, data)
+    except OSError as exc:
+        raise InputError(f"cannot write the file ({exc.strerror})", path, option) from None
 
 
 def _gate(args) -> int:
     from . import gate
 
-    claims = gate.load_claims(args.claims)
-    out = Path(args.out) if args.out else None
-    if out is not None:
-        try:
-            out.mkdir(parents=True, exist_ok=True)
-        except OSError as exc:
-            raise InputError(f"cannot create the folder ({exc.strerror})", args.out,
-                             "--out") from None
-    if args.junit and not Path(args.junit).resolve().parent.is_dir():
-        raise InputError("the folder does not exist", args.junit, "--junit")
+    claims = gate.load_claims(args.claims, args.models_anywhere)
+    out = writable_folder(args.out, "--out") if args.out else None
+    if args.junit:
+        writable_file(args.junit, "--junit")
     outcomes = gate.evaluate(claims, out, ("flint", "python") if out else ("flint",))
     result = gate.gate_json(claims, outcomes)
     if out is not None:
@@ -388,6 +431,8 @@ def _gate(args) -> int:
 def _report(args) -> int:
     from .io import publish
 
+    if args.output:
+        writable_file(args.output, "-o")
     report = publish.collect(args.inputs, args.arithmetic)
     if args.output:  # maps referenced relative to the report
         import os

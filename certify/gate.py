@@ -93,8 +93,12 @@ class ClaimsFile:
     title: str | None = None
 
 
-def load_claims(path: str | Path) -> ClaimsFile:
-    """Return the claims of a file, or raise InputError naming the file, key, line, reason."""
+def load_claims(path: str | Path, models_anywhere: bool = False) -> ClaimsFile:
+    """Return the claims of a file, or raise InputError naming the file, key, line, reason.
+
+    The model must lie in the claims file's folder or below it, unless models_anywhere: a
+    claims file from elsewhere cannot make the tool read (and report on) any file it likes.
+    """
     from .model.model import _line_of, parse_toml, parse_value, read_text
 
     p = Path(path)
@@ -114,6 +118,9 @@ def load_claims(path: str | Path) -> ClaimsFile:
     if not isinstance(data.get("model"), str):
         fail("missing or not a string: the model file, relative to this file", "model")
     model_path = (p.parent / data["model"]).resolve()
+    if not models_anywhere and not model_path.is_relative_to(p.parent.resolve()):
+        fail("the model file must lie in this file's folder or below it (certify gate "
+             "--models-anywhere allows others)", "model")
     if not model_path.is_file():
         fail(f"the model file {data['model']!r} does not exist (relative to this file)",
              "model")
@@ -242,7 +249,8 @@ def evaluate(claims: ClaimsFile, out: Path | None = None, arithmetics=("flint",)
     """Certify every claim; return one Outcome each (certificates written to out if given)."""
     import time
 
-    from .api import equilibrium, scan, write_certificate
+    from .api import equilibrium, scan
+    from .io.files import write_certificate
     from .model import load_model
 
     model = load_model(claims.model_path)

@@ -19,7 +19,8 @@ HERE = Path(__file__).resolve().parent
 sys.path.insert(0, str(HERE.parent))
 
 from certify import equilibrium, load_model, make_model  # noqa: E402
-from certify.api import scan, write_certificate  # noqa: E402
+from certify.api import scan  # noqa: E402
+from certify.io.files import write_certificate  # noqa: E402
 
 BOTH = ("flint", "python")
 

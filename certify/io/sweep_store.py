@@ -13,6 +13,7 @@ import os
 from pathlib import Path
 
 from ..errors import InputError
+from .files import write_certificate
 
 FORMAT = "certify-sweep"
 VERSION = 1
@@ -66,8 +67,6 @@ class SweepStore:
             except OSError as exc:
                 raise InputError(f"cannot create the folder ({exc.strerror})",
                                  str(self.folder), "--out") from None
-            from ..api import write_certificate  # an atomic JSON write
-
             write_certificate(manifest, self.manifest_path)
             self.results.write_bytes(b"")
             finished = set()
@@ -91,7 +90,6 @@ class SweepStore:
 
     def certificate(self, name: str, cert: dict) -> str:
         """Write a certificate atomically; return its path relative to the folder."""
-        from ..api import write_certificate
 
         rel = f"{CERTIFICATES}/{name}.cert.json"
         write_certificate(cert, self.folder / rel)
