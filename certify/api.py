@@ -11,8 +11,7 @@ from .check import CertificateRejected, Verified, check, load
 from .errors import InputError
 from .model import Interval, Model, load_model
 from .search.settings import DEFAULT_MAX_PRECISION, DEFAULT_PRECISION
-
-TYPES = {"flow": ("sink", "source"), "map": ("attracting", "repelling")}
+from .vocabulary import type_word
 
 
 @dataclass
@@ -43,10 +42,7 @@ class EquilibriumResult:
         """Return sink / source / saddle (flows) or attracting / repelling / saddle (maps)."""
         if self.verdict != "hyperbolic":
             return None
-        stable_word, unstable_word = TYPES[self.kind]
-        if self.unstable_dimension == 0:
-            return stable_word
-        return unstable_word if self.stable_dimension == 0 else "saddle"
+        return type_word(self.kind, self.stable_dimension, self.unstable_dimension)
 
 
 def equilibrium(model: Model | str | Path, guesses: list[dict[str, float]] | None = None,

@@ -72,7 +72,10 @@ class Claim:
             return f"no equilibrium in the region{params}"
         dims = ("" if self.unstable_dimensions is None else
                 f", unstable dimensions {sorted(self.unstable_dimensions)}")
-        return f"exactly {self.count} equilibria in the region{dims}{params}"
+        from .vocabulary import plural
+
+        return f"exactly {plural(self.count, 'equilibrium', 'equilibria')} in the region" \
+            f"{dims}{params}"
 
 
 def _params_text(params: dict) -> str:
@@ -290,14 +293,14 @@ def evaluate(claims: ClaimsFile, out: Path | None = None, arithmetics=("flint",)
 
 
 def _judge_equilibrium(c: Claim, r) -> Outcome:
-    from .io.decimal import interval_text
+    from .io.decimal import membership_text
 
     if r.verdict == "undecided":
         return Outcome(c, "undecided", f"undecided ({r.reason}): {r.message}")
     if r.verdict == "not hyperbolic":
         return Outcome(c, "fails", "proved NOT hyperbolic: an eigenvalue lies exactly on "
                        "the axis")
-    enc = ", ".join(f"{v} in {interval_text(*r.enclosure[v])}" for v in r.variables)
+    enc = ", ".join(membership_text(v, *r.enclosure[v]) for v in r.variables)
     proved = f"{r.type}, unstable dimension {r.unstable_dimension}, {enc}"
     wrong = []
     for v in r.variables:
@@ -319,14 +322,35 @@ def _judge_equilibrium(c: Claim, r) -> Outcome:
 def _judge_count(c: Claim, r) -> Outcome:
     if r.count is None:
         return Outcome(c, "undecided", f"undecided ({r.reason}): {r.message}")
+    from .vocabulary import plural
+
     n = len(r.model.variables)
-    dims = sorted(n - z.stable_dimension for z in r.zeros if z.inside)
-    proved = f"proved exactly {r.count} equilibria in the region, unstable dimensions {dims}"
+    inside = [z for z in r.zeros if z.inside]
+    dims = sorted(n - z.stable_dimension for z in inside if z.stable_dimension is not None)
+    loose = [z for z in inside if z.stable_dimension is None]
+    proved = f"proved exactly {plural(r.count, 'equilibrium', 'equilibria')} in the region"
+    if dims:
+        proved += f", unstable dimensions {dims}"
+    for z in loose:
+        proved += f"; {z.reason}" if z.not_hyperbolic else \
+            f"; one of unknown kind ({z.reason or 'unclassified'})"
     expected = 0 if c.expect == "none" else c.count
     if r.count != expected:
         return Outcome(c, "fails", proved)
-    if c.unstable_dimensions is not None and sorted(c.unstable_dimensions) != dims:
-        return Outcome(c, "fails", proved)
+    if c.unstable_dimensions is None:
+        return Outcome(c, "holds", proved)
+    claimed = sorted(c.unstable_dimensions)
+    # Each classified zero must take one claimed dimension; a zero proved not hyperbolic can
+    # take none. Only unclassified zeros that might still be hyperbolic leave it open.
+    left = list(claimed)
+    for d in dims:
+        if d not in left:
+            return Outcome(c, "fails", proved)
+        left.remove(d)
+    if any(z.not_hyperbolic for z in loose):
+        return Outcome(c, "fails", proved + ", so it has no unstable dimension")
+    if loose:
+        return Outcome(c, "undecided", "undecided (unclassified): " + proved)
     return Outcome(c, "holds", proved)
 
 

@@ -79,3 +79,103 @@ def test_claims_name_models_only_below_their_own_folder(tmp_path):
     allowed = run_cli("gate", claims, "--models-anywhere")
     assert allowed.returncode == 0, allowed.stdout + allowed.stderr
     assert "HOLDS" in allowed.stdout
+
+
+CENTRE = """name = "linear centre"
+variables = ["x", "y"]
+[equations]
+x = "-y"
+y = "x"
+[region]
+x = ["-1", "1"]
+y = ["-1", "1"]
+"""
+
+
+def test_scan_of_a_centre_says_one_equilibrium_at_a_point_and_why_its_kind_is_open(write):
+    # x' = -y, y' = x: eigenvalues +-i exactly (common practice: the linear centre).
+    model = write("centre.toml", CENTRE)
+    proc = run_cli("scan", model)
+    assert proc.returncode == 0, proc.stderr
+    assert "exactly 1 equilibrium in the region" in proc.stdout
+    assert "x = 0" in proc.stdout and "x in 0" not in proc.stdout
+    assert "not hyperbolic (proved)" in proc.stdout and "imaginary axis" in proc.stdout
+    import json
+
+    zero = json.loads(run_cli("scan", model, "--json").stdout)["equilibria"][0]
+    assert zero["not_hyperbolic"] is True and zero["stable_dimension"] is None
+    assert "imaginary axis" in zero["reason"]
+
+
+def test_gate_count_claim_over_a_non_hyperbolic_zero(write, tmp_path):
+    write("centre.toml", CENTRE)
+    with_dims = write("dims.toml", 'model = "centre.toml"\n[[claim]]\nname = "a sink"\n'
+                      'expect = "count"\ncount = 1\nunstable_dimensions = [0]\n')
+    junit = tmp_path / "j.xml"
+    proc = run_cli("gate", with_dims, "--junit", junit)
+    assert proc.returncode == 1 and "Traceback" not in proc.stderr, proc.stderr
+    assert proc.stdout.startswith("FAILS") and "no unstable dimension" in proc.stdout
+    import xml.etree.ElementTree as ET
+
+    case = ET.parse(junit).getroot().find(".//testcase")
+    assert case.find("failure") is not None and "not hyperbolic" in case.find("failure").get(
+        "message")
+    plain = write("plain.toml", 'model = "centre.toml"\n[[claim]]\nname = "one"\n'
+                  'expect = "count"\ncount = 1\n')
+    proc = run_cli("gate", plain)
+    assert proc.returncode == 0 and proc.stdout.startswith("HOLDS"), proc.stdout
+
+
+from hypothesis import HealthCheck, given, settings  # noqa: E402
+from hypothesis import strategies as st  # noqa: E402
+
+MODELS = {"chemostat.toml": {"u": (0, 4), "v": (0, 4)},
+          "fishery.toml": {"B": (-1, 120), "E": (-1, 50)},
+          "seasonal-map.toml": {"L": (-1, 30), "A": (-1, 10)}}
+OUTCOMES = {"holds": 0, "fails": 0, "undecided": 0}
+
+
+@st.composite
+def claims_files(draw):
+    name = draw(st.sampled_from(sorted(MODELS)))
+    sides = MODELS[name]
+    lines = [f'model = "{name}"']
+    for k in range(draw(st.integers(1, 3))):
+        expect = draw(st.sampled_from(["count", "none", "equilibrium"]))
+        lines += ["[[claim]]", f'name = "claim {k}"', f'expect = "{expect}"']
+        if expect == "equilibrium":
+            near = ", ".join(f"{v} = {draw(st.integers(lo, hi))}" for v, (lo, hi) in
+                             sides.items())
+            lines.append(f"near = {{ {near} }}")
+            if draw(st.booleans()):
+                lines.append(f"unstable_dimension = {draw(st.integers(0, 2))}")
+        else:
+            cuts = {v: sorted(draw(st.lists(st.integers(lo, hi), min_size=2, max_size=2,
+                                            unique=True))) for v, (lo, hi) in sides.items()}
+            region = ", ".join(f'{v} = ["{a}", "{b}"]' for v, (a, b) in cuts.items())
+            lines.append(f"region = {{ {region} }}")
+            if expect == "count":
+                count = draw(st.integers(0, 3))
+                lines.append(f"count = {count}")
+                if draw(st.booleans()):
+                    dims = draw(st.lists(st.integers(0, 2), min_size=count, max_size=count))
+                    lines.append(f"unstable_dimensions = {dims}")
+    return name, "\n".join(lines) + "\n"
+
+
+@settings(max_examples=25, deadline=None, suppress_health_check=list(HealthCheck))
+@given(claims_files())
+def test_random_claims_files_never_raise(tmp_path_factory, case):
+    from certify import gate
+
+    name, text = case
+    folder = tmp_path_factory.mktemp("claims")
+    shutil.copy(EXAMPLES / name, folder / name)
+    (folder / "claims.toml").write_text(text)
+    claims = gate.load_claims(folder / "claims.toml")
+    outcomes = gate.evaluate(claims, None, ("flint",))
+    assert len(outcomes) == len(claims.claims)
+    for o in outcomes:
+        assert o.status in OUTCOMES and o.proved
+        OUTCOMES[o.status] += 1
+    assert gate.junit_xml(claims, outcomes).startswith(b"<?xml")

@@ -86,3 +86,8 @@ def value_text(lo: Fraction, hi: Fraction) -> str:
         a = round_decimal(q, 30, up=False)
         return a if Fraction(a) == q else f"{q.numerator}/{q.denominator}"
     return one(lo) if lo == hi else f"[{one(lo)}, {one(hi)}]"
+
+
+def membership_text(name: str, lo: Fraction, hi: Fraction) -> str:
+    """Return 'x = 0.5' for a point, 'x in 1.44… [1.4409, 1.4410]' for an interval."""
+    return f"{name} = {interval_text(lo, hi)}" if lo == hi else f"{name} in {interval_text(lo, hi)}"

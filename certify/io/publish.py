@@ -117,7 +117,7 @@ def _certificate_row(path: Path, data: bytes, arithmetic: str) -> Row:
     kind = verified.kind
     n = len(verified.variables)
     if c["verdict"] == "hyperbolic":
-        from ..search.executors import type_word
+        from ..vocabulary import type_word
 
         stable = c["stable_dimension"]
         row.statement = (f"exactly one {'equilibrium' if kind == 'flow' else 'fixed point'} "

@@ -8,7 +8,8 @@ from rich.table import Table
 
 from ..check.certificate import rational_text as _q
 from ..model import Model
-from .decimal import bounds_text, interval_text, value_text
+from ..vocabulary import axis_word, plural, type_word
+from .decimal import bounds_text, interval_text, membership_text, value_text
 
 
 def _console() -> Console:
@@ -163,17 +164,15 @@ def claim_text(verified) -> str:
     c = verified.claim
     if c["verdict"] == "hyperbolic":
         n_p = f", {verified.pieces} pieces" if verified.pieces > 1 else ""
-        stable_word, unstable_word = {"flow": ("sink", "source"),
-                                      "map": ("attracting", "repelling")}[verified.kind]
-        word = (stable_word if c["unstable_dimension"] == 0 else
-                unstable_word if c["stable_dimension"] == 0 else "saddle")
+        word = type_word(verified.kind, c["stable_dimension"], c["unstable_dimension"])
         box = ", ".join(f"{p}={value_text(lo, hi)}" for p, (lo, hi) in verified.parameters.items())
         return (f"hyperbolic {word}, stable dimension {c['stable_dimension']}, "
                 f"unstable dimension {c['unstable_dimension']}{n_p}; {box}")
     if c["verdict"] == "count":
-        return (f"exactly {c['count']} equilibria in the region, stable dimensions "
-                f"{c['stable_dimensions']}, {verified.pieces} parameter piece(s)")
-    return f"not hyperbolic: exact eigenvalue on the axis ({c['eigenvalue']})"
+        return (f"exactly {plural(c['count'], 'equilibrium', 'equilibria')} in the region, "
+                f"stable dimensions {c['stable_dimensions']}, "
+                f"{plural(verified.pieces, 'parameter piece')}")
+    return f"not hyperbolic (proved): {axis_word(c['eigenvalue'])}"
 
 
 class _NoProgress:
@@ -224,15 +223,11 @@ def scan_progress(enabled: bool):
 
 
 def _kind_word(kind: str, stable: int | None, n: int) -> str:
-    if stable is None:
-        return "unclassified"
-    stable_word, unstable_word = {"flow": ("sink", "source"),
-                                  "map": ("attracting", "repelling")}[kind]
-    return stable_word if stable == n else unstable_word if stable == 0 else "saddle"
+    return "unclassified" if stable is None else type_word(kind, stable, n - stable)
 
 
 def _box_text(box, variables, sep: str = ", ") -> str:
-    return sep.join(f"{v} in {interval_text(lo, hi)}" for v, (lo, hi) in zip(variables, box))
+    return sep.join(membership_text(v, lo, hi) for v, (lo, hi) in zip(variables, box))
 
 
 def print_scan(result, caution: str) -> None:
@@ -246,26 +241,28 @@ def print_scan(result, caution: str) -> None:
                                              for p, (lo, hi) in model.parameters.items()))
     con.print("region: " + _box_text([result.region[v] for v in model.variables],
                                      model.variables))
-    what = "equilibria" if model.kind == "flow" else "fixed points"
+    what = ("equilibrium", "equilibria") if model.kind == "flow" else ("fixed point", None)
     if result.count is not None:
         every = " for every parameter in the box" if any(
             lo != hi for lo, hi in model.parameters.values()) else ""
         pieces = f" ({result.pieces} parameter pieces)" if result.pieces > 1 else ""
-        con.print(f"[green]certified: exactly {result.count} {what} in the region{every}"
-                  f"{pieces}[/green]")
+        con.print(f"[green]certified: exactly {plural(result.count, *what)} in the region"
+                  f"{every}{pieces}[/green]")
     else:
         con.print(f"[red]count not certified ({result.reason}): {result.message}[/red]")
     table = Table(show_edge=False, box=None, padding=(0, 2))
     table.add_column("  #")
     table.add_column("kind")
     table.add_column("stable/unstable")
-    table.add_column("where")
+    table.add_column("where", no_wrap=True)
     for k, z in enumerate(result.zeros, 1):
         if z.inside is False:
             continue
         dims = ("-" if z.stable_dimension is None else
                 f"{z.stable_dimension}/{n - z.stable_dimension}")
         word = _kind_word(model.kind, z.stable_dimension, n)
+        if z.stable_dimension is None and z.reason:
+            word = z.reason if z.not_hyperbolic else f"{word} ({z.reason})"
         if z.inside is None:
             word += " (on the border of the region)"
         table.add_row(f"  {k}", word, dims,
@@ -297,6 +294,7 @@ def scan_json(result) -> dict:
                       "stable_dimension": z.stable_dimension,
                       "unstable_dimension": (None if z.stable_dimension is None
                                              else model.dimension - z.stable_dimension),
+                      "reason": z.reason, "not_hyperbolic": z.not_hyperbolic,
                       "enclosure": {v: list(bounds_text(lo, hi))
                                     for v, (lo, hi) in zip(model.variables, box)}})
     return {"model": model.source, "count": result.count, "reason": result.reason,

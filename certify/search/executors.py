@@ -16,12 +16,12 @@ import time
 from dataclasses import dataclass, field
 
 from ..io.decimal import bounds_text, honest_digits
+from ..vocabulary import type_word
 from .sweep import Job, Task, block_box, cells_of, child_tasks, interval_json, n_cells, \
     needs_split, run_block
 
 BATCH = 2048  # result lines per write
 MAX_LOST_POOLS = 20  # pool restarts after dead workers before the sweep gives up
-TYPES = {"flow": ("sink", "source"), "map": ("attracting", "repelling")}
 
 
 @dataclass
@@ -124,12 +124,6 @@ def executor(workers: int, scheduler: str | None):
     if workers <= 1:
         return _InProcess()
     return _Pool(workers)
-
-
-def type_word(kind: str, stable: int, unstable: int) -> str:
-    """Return sink / source / saddle (flows) or attracting / repelling / saddle (maps)."""
-    stable_word, unstable_word = TYPES[kind]
-    return stable_word if unstable == 0 else unstable_word if stable == 0 else "saddle"
 
 
 def _name(block, prefix: str) -> str:
@@ -256,4 +250,4 @@ def drive(job: Job, store, finished: set, workers: int = 1, scheduler: str | Non
     return stats
 
 
-__all__ = ["Stats", "block_box", "drive", "executor", "type_word"]
+__all__ = ["Stats", "block_box", "drive", "executor"]

@@ -40,6 +40,8 @@ class Zero:
     inside: bool | None = None
     stable_dimension: int | None = None
     enclosure: list[Interval] | None = None
+    reason: str | None = None  # why the kind is not certified, when it is not
+    not_hyperbolic: bool = False  # proved: an eigenvalue exactly on the axis (unit circle)
 
 
 @dataclass
@@ -204,17 +206,34 @@ class _Scanner:
         zero = Zero(entry=entry, box=box)
         try:
             piece = certify_piece(problem, self.pbox, x, 53)
-            tight = [(Fraction(lo), Fraction(hi)) for lo, hi in piece["box"]]
-            if all(lo <= t_lo and t_hi <= hi for (lo, hi), (t_lo, t_hi) in zip(box, tight)):
-                from ..check import exact
+        except Undecided as exc:
+            zero.reason = f"{exc.reason}: {exc.message}"
+            if not self.wide:
+                self._try_not_hyperbolic(zero, x)
+            return zero
+        tight = [(Fraction(lo), Fraction(hi)) for lo, hi in piece["box"]]
+        if not all(lo <= t_lo and t_hi <= hi for (lo, hi), (t_lo, t_hi) in zip(box, tight)):
+            zero.reason = "the box proving its kind reaches outside its uniqueness box"
+            return zero
+        from ..check import exact
 
-                entry["classification"] = {k: piece[k] for k in
-                                           ("centre", "box", "preconditioner", "inertia_matrix")}
-                s = [[Fraction(v) for v in row] for row in piece["inertia_matrix"]]
-                entry["classification"]["stable_dimension"] = exact.inertia(s)[0]
-        except Undecided:
-            pass
+        entry["classification"] = {k: piece[k] for k in
+                                   ("centre", "box", "preconditioner", "inertia_matrix")}
+        s = [[Fraction(v) for v in row] for row in piece["inertia_matrix"]]
+        entry["classification"]["stable_dimension"] = exact.inertia(s)[0]
         return zero
+
+    def _try_not_hyperbolic(self, zero: Zero, x: np.ndarray) -> None:
+        """Prove the zero not hyperbolic when it is exactly rational (the reason says so)."""
+        from ..vocabulary import axis_word
+        from .equilibrium import Attempt, _try_not_hyperbolic
+
+        attempt = Attempt(guess={}, parameters={})
+        _try_not_hyperbolic(self.model, self.problem, x, attempt)
+        if attempt.verdict == "not hyperbolic":
+            zero.not_hyperbolic = True
+            zero.reason = ("not hyperbolic (proved): "
+                           + axis_word(attempt.verified.claim["eigenvalue"]))
 
     @staticmethod
     def _meets(a: list[Interval], b: list[Interval]) -> bool:
