@@ -70,7 +70,7 @@ def test_a_model_edit_that_breaks_one_claim_fails_the_gate_and_junit_says_which(
     suite = ET.parse(junit).getroot().find("testsuite")
     failed = [c for c in suite.findall("testcase") if c.find("failure") is not None]
     assert [c.get("name") for c in failed] == ["three equilibria, two sinks and a saddle"]
-    assert "exactly 1 equilibria" in failed[0].find("failure").get("message")
+    assert "exactly 1 equilibrium in the region" in failed[0].find("failure").get("message")
     assert suite.get("failures") == "1" and suite.get("errors") == "0"
 
 
