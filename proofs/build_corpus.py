@@ -233,6 +233,15 @@ def tampered(valid: dict[str, dict]) -> list[tuple[str, object, str, str]]:
         0, "1" * 5000), "malformed", "a number with 5,000 digits")
     edit("equation-nested-1e5", saddle, lambda d: d["model"]["equations"].__setitem__(
         "u", "(" * 10**5 + "u" + ")" * 10**5), "model", "parentheses nested 10^5 deep")
+    edit("unknown-note", saddle, lambda d: d.__setitem__("note", "checked by hand"),
+         "malformed", "a note, which the format does not have")
+    edit("region-on-hyperbolic", saddle, lambda d: d.__setitem__("region", {"junk": 1}),
+         "malformed", "a region on a hyperbolic claim")
+    edit("pieces-on-not-hyperbolic", hopf, lambda d: d.__setitem__("pieces", [{"junk": 1}]),
+         "malformed", "pieces on a not-hyperbolic claim, which has none")
+    twice = json.dumps(saddle, indent=1).replace('"claim": {', '"claim": {"verdict": "count", ',
+                                                   1)
+    out.append(("key-twice", twice, "malformed", "a key written twice in one object"))
     out.append(("not-json", "this is not JSON {", "malformed", "not JSON"))
     out.append(("deep-nesting", "[" * 100000 + "]" * 100000, "malformed", "nesting 10^5 deep"))
     out.append(("huge-number", '{"format": "certify-certificate", "version": 1, "precision": 5'

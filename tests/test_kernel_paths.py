@@ -140,6 +140,10 @@ def _mutated(change):
     (lambda d: d["pieces"][0]["parameters"].__setitem__("a", ["3", "3"]), "tiling"),
     (lambda d: d["pieces"][0].__setitem__("inertia_matrix", [["1", "0"], ["0", "1"]]),
      "not-definite"),
+    (lambda d: d.__setitem__("region", {"junk": 1}), "malformed"),
+    (lambda d: d.__setitem__("note", "trust me"), "malformed"),
+    (lambda d: d.__setitem__("tool", 7), "malformed"),
+    (lambda d: d.update(claim={"verdict": "not hyperbolic", "point": ["1", "1"]}), "malformed"),
 ])
 def test_certificate_refusals(change, code):
     with pytest.raises(CertificateRejected) as info:
@@ -148,7 +152,7 @@ def test_certificate_refusals(change, code):
 
 
 def test_reader_refusals():
-    for text in ["[1, 2]", "x" * (cert_module.MAX_BYTES + 1)]:
+    for text in ["[1, 2]", "x" * (cert_module.MAX_BYTES + 1), '{"a": 1, "b": 2, "a": 3}']:
         with pytest.raises(CertificateRejected):
             load(text)
     with pytest.raises(CertificateRejected) as info:

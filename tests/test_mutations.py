@@ -289,3 +289,69 @@ def test_every_text_mutant_kind_was_tried():
     if sum(TEXT_KINDS.values()) == 0:
         return  # the property test was deselected
     assert all(n >= 50 for n in TEXT_KINDS.values()), TEXT_KINDS
+
+
+def _objects(node, path="certificate"):
+    """Yield (kind, object) for every JSON object, the kind being its path without indices."""
+    if isinstance(node, dict):
+        yield path, node
+        for k, v in node.items():
+            yield from _objects(v, path if path.endswith(("tree", "low", "high")) and k in
+                                ("low", "high") else f"{path}.{k}")
+    elif isinstance(node, list):
+        for v in node:
+            yield from _objects(v, path)
+
+
+def _kind(path: str) -> str:
+    return path.replace(".low", "").replace(".high", "")
+
+
+def _dumps_with_duplicate(doc, target) -> str:
+    """Return the JSON text of doc with the first key of the object target written twice."""
+    def encode(node):
+        if isinstance(node, dict):
+            items = [f"{json.dumps(k)}: {encode(v)}" for k, v in node.items()]
+            if node is target and items:
+                items.append(items[0])
+            return "{" + ", ".join(items) + "}"
+        if isinstance(node, list):
+            return "[" + ", ".join(encode(v) for v in node) + "]"
+        return json.dumps(node)
+    return encode(doc)
+
+
+def test_an_unknown_or_repeated_key_in_any_object_is_rejected():
+    from certify.check import load
+
+    every = [json.loads(p.read_text()) for p in CORPUS]
+    kinds: dict[str, int] = {}
+    for base in every:
+        tried: dict[str, int] = {}
+        for path, obj in _objects(base):
+            kind = _kind(path)
+            if not obj or tried.get(kind, 0) >= 3:  # three objects of each kind per file
+                continue
+            tried[kind] = tried.get(kind, 0) + 1
+            for mutate in ("unknown", "repeated"):
+                doc = copy.deepcopy(base)
+                twin = next(o for p, o in _objects(doc) if p == path and o == obj)
+                if mutate == "unknown":
+                    twin["junk"] = 1
+                    text = json.dumps(doc)
+                else:
+                    text = _dumps_with_duplicate(doc, twin)
+                try:
+                    check(load(text))
+                except CertificateRejected as exc:
+                    assert exc.code in ("malformed", "model"), (path, mutate, exc)
+                else:
+                    raise AssertionError(f"accepted a {mutate} key in {path}")
+                kinds[kind] = kinds.get(kind, 0) + 1
+    expected = {"certificate", "certificate.model", "certificate.model.parameters",
+                "certificate.model.equations",
+                "certificate.claim", "certificate.pieces", "certificate.region",
+                "certificate.pieces.parameters", "certificate.pieces.zeros",
+                "certificate.pieces.zeros.classification", "certificate.pieces.tree",
+                "certificate.pieces.tree.empty"}
+    assert expected <= set(kinds), sorted(kinds)

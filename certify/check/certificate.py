@@ -115,12 +115,21 @@ def _integer(v, lo: int, hi: int, where: str) -> int:
     return v
 
 
+def _unique_keys(pairs: list[tuple[str, object]]) -> dict:
+    """Return the JSON object of the pairs, refusing a key written twice."""
+    data = dict(pairs)
+    if len(data) != len(pairs):
+        seen = [k for i, (k, _) in enumerate(pairs) if k in dict(pairs[:i])]
+        raise ValueError(f"the key {seen[0]!r} appears twice in one object")
+    return data
+
+
 def load(text: str | bytes) -> dict:
     """Return the parsed JSON object of a certificate, refusing oversized or deep files."""
     if len(text) > MAX_BYTES:
         raise CertificateRejected("malformed", "file", f"larger than {MAX_BYTES} bytes")
     try:
-        data = json.loads(text)
+        data = json.loads(text, object_pairs_hook=_unique_keys)
     except (ValueError, RecursionError) as exc:
         raise CertificateRejected("malformed", "file", f"not JSON ({str(exc)[:80]})") from None
     if not isinstance(data, dict):
@@ -134,7 +143,9 @@ def load(text: str | bytes) -> dict:
 def check(data: dict, arithmetic: str = "flint") -> Verified:
     """Return what the certificate proves, or raise CertificateRejected."""
     _dict(data, {"format", "version", "model", "claim", "precision"}, "certificate",
-          {"tool", "period", "pieces", "note", "region"})
+          {"tool", "period", "pieces", "region"})
+    if not isinstance(data.get("tool", ""), str) or len(data.get("tool", "")) > 200:
+        raise CertificateRejected("malformed", "tool", "expected a short text")
     if type(data["format"]) is not str or data["format"] != FORMAT:
         raise CertificateRejected("version", "format", f"found {data['format']!r}, "
                                   f"expected {FORMAT!r}")
@@ -180,6 +191,11 @@ def check(data: dict, arithmetic: str = "flint") -> Verified:
                                                                     "not hyperbolic", "count"):
         raise CertificateRejected("malformed", "claim.verdict",
                                   "expected \"hyperbolic\", \"not hyperbolic\" or \"count\"")
+    wanted = {"hyperbolic": {"pieces"}, "not hyperbolic": set(), "count": {"pieces", "region"}}
+    extra = {"pieces", "region"} & data.keys() - wanted[claim["verdict"]]
+    if extra:
+        raise CertificateRejected("malformed", min(extra), f"found {min(extra)!r}, which a "
+                                  f"{claim['verdict']!r} claim does not have")
     ctx = Problem(tape, kind, period, list(params), pbox)
     ar = ArbArithmetic(prec) if arithmetic == "flint" else _other_arithmetic(arithmetic, prec)
     if claim["verdict"] == "count":

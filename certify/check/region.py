@@ -122,9 +122,9 @@ def _check_tree(ctx: Problem, ar, pbox: Box, tree, region: Box, boxes: list[Box]
         nodes += 1
         if nodes > MAX_NODES or depth > MAX_DEPTH:
             raise CertificateRejected("malformed", where, "found a tree too large or too deep")
-        if not isinstance(node, dict) or len(node) not in (1, 4):
+        if not isinstance(node, dict):
             raise CertificateRejected("malformed", where, "expected a split or a leaf")
-        if "split" in node:
+        if "split" in node or len(node) != 1:
             _dict(node, {"split", "at", "low", "high"}, where)
             k = _integer(node["split"], 0, n - 1, f"{where}.split")
             at = _rational(node["at"], f"{where}.at")
