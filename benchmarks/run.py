@@ -9,6 +9,8 @@
     python benchmarks/run.py branches   one-piece widths and sweep proofs: plain vs first-order
     python benchmarks/run.py sweep      100 x 100 Brusselator sweep vs stacked float Newton +
                                         eigvals at the cell centres; memory at 10^5 cells
+    python benchmarks/run.py hostile    time to refuse each file of the invalid corpus
+    python benchmarks/run.py --help     the list of benchmarks
 
 Targets (issues): certification of Lorenz C+ at most 10x float Newton + eigvals; a sweep
 certifies at least 1/20 of the float baseline's cells per second, under 500 MB at 10^5 cells.
@@ -283,19 +285,61 @@ def bench_sweep() -> None:
           "(target < 500 MB)")
 
 
+def bench_hostile() -> None:
+    """Time to refuse each file of the invalid corpus, both arithmetics (target: under 1 s)."""
+    import json
+    from pathlib import Path
+
+    from certify.check import CertificateRejected, check, load
+
+    print("refusing the invalid corpus (both arithmetics, warm process)")
+    folder = Path(__file__).resolve().parent.parent / "proofs" / "invalid"
+    rows = []
+    for name in sorted(json.loads((folder / "MANIFEST.json").read_text())):
+        text = (folder / name).read_bytes()
+        start = time.perf_counter()
+        for arithmetic in ("flint", "python"):
+            try:
+                check(load(text), arithmetic)
+            except CertificateRejected:
+                pass
+        rows.append((time.perf_counter() - start, name))
+    for seconds, name in sorted(rows, reverse=True)[:5]:
+        print(f"  {name:45s} {seconds * 1000:8.1f} ms")
+    print(f"  slowest of {len(rows)}: {max(rows)[0]:.3f} s (target < 1 s)")
+
+
+BENCHMARKS = {"sweep": (bench_sweep, "100 x 100 Brusselator sweep vs stacked float Newton + "
+                                   "eigvals; memory at 10^5 cells (runs first: it forks)"),
+              "eval": (bench_eval, "interval f and J against numpy floats"),
+              "certify": (bench_certify, "certified equilibria against float Newton + eigvals"),
+              "verify": (bench_verify, "the checker: cold process time, warm throughput"),
+              "widths": (bench_widths, "enclosure widths of the two arithmetics' functions"),
+              "scan": (bench_scan, "certified counts vs multi-start float Newton"),
+              "branches": (bench_branches, "one-piece widths and sweep proofs: plain vs "
+                                           "first-order"),
+              "hostile": (bench_hostile, "time to refuse each file of the invalid corpus")}
+
+
+def main(argv: list[str] | None = None) -> int:
+    """Run the named benchmarks (all by default) and print their ratios."""
+    import argparse
+
+    listing = "\n".join(f"  {name:10s}{text}" for name, (_, text) in BENCHMARKS.items())
+    parser = argparse.ArgumentParser(
+        prog="python benchmarks/run.py", formatter_class=argparse.RawDescriptionHelpFormatter,
+        description="Speed ratios against floating-point baselines run in the same process.",
+        epilog=f"benchmarks:\n{listing}")
+    parser.add_argument("names", nargs="*", metavar="NAME", help="benchmarks to run (default: "
+                        "all)")
+    args = parser.parse_args(argv)
+    unknown = [n for n in args.names if n not in BENCHMARKS]
+    if unknown:
+        parser.error(f"unknown benchmark {unknown[0]!r} (known: {', '.join(BENCHMARKS)})")
+    for name in args.names or BENCHMARKS:
+        BENCHMARKS[name][0]()
+    return 0
+
+
 if __name__ == "__main__":
-    which = sys.argv[1:] or ["eval", "certify", "verify", "widths", "scan", "branches", "sweep"]
-    if "sweep" in which:
-        bench_sweep()
-    if "eval" in which:
-        bench_eval()
-    if "certify" in which:
-        bench_certify()
-    if "verify" in which:
-        bench_verify()
-    if "widths" in which:
-        bench_widths()
-    if "scan" in which:
-        bench_scan()
-    if "branches" in which:
-        bench_branches()
+    sys.exit(main())

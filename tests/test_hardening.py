@@ -179,3 +179,18 @@ def test_random_claims_files_never_raise(tmp_path_factory, case):
         assert o.status in OUTCOMES and o.proved
         OUTCOMES[o.status] += 1
     assert gate.junit_xml(claims, outcomes).startswith(b"<?xml")
+
+
+def test_benchmark_runner_lists_its_benchmarks_and_refuses_unknown_names():
+    import subprocess
+    import sys
+
+    runner = [sys.executable, str(EXAMPLES.parent / "benchmarks" / "run.py")]
+    listing = subprocess.run([*runner, "--help"], capture_output=True, text=True, timeout=60,
+                             check=False)
+    assert listing.returncode == 0
+    for name in ("eval", "certify", "verify", "scan", "branches", "sweep", "hostile"):
+        assert f"\n  {name} " in listing.stdout
+    wrong = subprocess.run([*runner, "nope"], capture_output=True, text=True, timeout=60,
+                           check=False)
+    assert wrong.returncode == 2 and "unknown benchmark 'nope'" in wrong.stderr
