@@ -26,3 +26,24 @@ def write(tmp_path):
         p.write_text(text)
         return p
     return _write
+
+
+def pytest_configure(config):
+    """With CERTIFY_FORCE_UNDECIDED=1 every search answers undecided (a one-off check).
+
+    The search's calls of the checker are made to refuse everything, so every verdict the search
+    would report becomes undecided; the tests of decided cases must then fail (see
+    DEVELOPERS.md). `certify verify` and the kernel's own tests are left alone.
+    """
+    import os
+
+    if os.environ.get("CERTIFY_FORCE_UNDECIDED") != "1":
+        return
+    from certify.check import CertificateRejected
+    from certify.search import equilibrium, region, sweep
+
+    def refuse(*args, **kwargs):
+        raise CertificateRejected("forced", "search", "CERTIFY_FORCE_UNDECIDED is set")
+
+    for module in (equilibrium, region, sweep):
+        module.check = refuse

@@ -118,6 +118,19 @@ def test_every_single_nudge_is_rejected_or_still_proves(saddle):
                 # a tiny nudge may still prove the same claim: it must then be the same claim
                 assert v.claim == saddle["claim"]
     assert tried == 28  # 2 x (4 box ends + 2 centre + 4 + 4 matrix entries)
+    # One coarse edit of each field must be refused, so a checker that ignored a field fails.
+    centre = piece["centre"]
+    coarse = {"box": lambda p: p.__setitem__("box", [[c, c] for c in centre]),
+              "centre": lambda p: p["centre"].__setitem__(0, str(F(p["box"][0][1]) + 1)),
+              "preconditioner": lambda p: p.__setitem__("preconditioner",
+                                                        [["0", "0"], ["0", "0"]]),
+              "inertia_matrix": lambda p: p.__setitem__("inertia_matrix", [
+                  [str(-F(v)) for v in row] for row in p["inertia_matrix"]])}
+    for key, edit in coarse.items():
+        bad = copy.deepcopy(saddle)
+        edit(bad["pieces"][0])
+        with pytest.raises(CertificateRejected):
+            check(bad)
 
 
 @pytest.mark.parametrize("mutate, code", [
