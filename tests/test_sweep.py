@@ -314,3 +314,18 @@ def test_dask_cluster_gives_the_local_results_even_when_a_worker_dies(tmp_path, 
         thread.join(timeout=300)
         assert not thread.is_alive()
         assert {json.dumps(r, sort_keys=True) for r in outcome["r"]} == expected
+
+
+def test_fishery_left_edge_is_proved_with_refinement(tmp_path):
+    # The bundled fishery: for c in [1, 2] the fleet's equilibrium B* = c/(pq) is a weakly damped
+    # focus (Re = -rB*/(2K), from the Jacobian computed by hand in the README); whole cells are
+    # undecided, halves and quarters are proved, and every cell ends certified.
+    from .conftest import EXAMPLES
+
+    grid = {"c": ("1", "2", 2), "p": ("4", "6", 4)}
+    coarse = sweep(EXAMPLES / "fishery.toml", grid, workers=1, out=tmp_path / "coarse")
+    assert any(r["status"] == "undecided" for r in by_cell(coarse.folder).values())
+    fine = sweep(EXAMPLES / "fishery.toml", grid, workers=1, refine=2, out=tmp_path / "fine")
+    cells = by_cell(fine.folder)
+    assert len(cells) == 8 and all(r["status"] == "certified" for r in cells.values())
+    check_certificates(fine.folder, cells.values())
