@@ -194,3 +194,19 @@ def test_benchmark_runner_lists_its_benchmarks_and_refuses_unknown_names():
     wrong = subprocess.run([*runner, "nope"], capture_output=True, text=True, timeout=60,
                            check=False)
     assert wrong.returncode == 2 and "unknown benchmark 'nope'" in wrong.stderr
+
+
+def test_a_huge_exact_power_is_undecided_budget_not_a_hang(write):
+    # (x - 2)^2 has a double zero at 2 (no Krawczyk proof); the exact proof of its eigenvalue 0
+    # would evaluate 2^(10^12): refused by the size bound, before it is computed.
+    model = write("tower.toml", 'variables = ["x"]\n[equations]\n'
+                  'x = "(x - 2)**2 + 0*((((x**1000)**1000)**1000)**1000)"\n')
+    proc = run_cli("equilibrium", model, "--guess", "x=1.9", "--json", timeout=60)
+    assert proc.returncode == 1 and "Traceback" not in proc.stderr, proc.stderr
+    import json
+
+    result = json.loads(proc.stdout)["results"][0]
+    assert (result["verdict"], result["reason"]) == ("undecided", "budget")
+    hostile = EXAMPLES.parent / "proofs" / "invalid" / "not-hyperbolic-huge-power.cert.json"
+    proc = run_cli("verify", hostile, timeout=60)
+    assert proc.returncode == 1 and "REJECTED: budget" in proc.stdout

@@ -78,6 +78,16 @@ def test_kernel_never_uses_assert_for_checks():
                 "model": {"kind": "flow", "variables": ["x"], "parameters": {},
                           "equations": {"x": "10**10**10"}}}),
     json.dumps({"format": "certify-certificate", "version": 7}),
+    json.dumps({"format": "certify-certificate", "version": 1, "precision": 53,
+                "claim": {"verdict": "hyperbolic", "stable_dimension": 1,
+                          "unstable_dimension": 0},
+                "model": {"kind": "flow", "variables": ["x"], "parameters": {},
+                          "equations": {"x": "+".join(["x"] * 10**6)}}}),  # 10^6 terms
+    json.dumps({"format": "certify-certificate", "version": 1, "precision": 53,
+                "claim": {"verdict": "hyperbolic", "stable_dimension": 10**6,
+                          "unstable_dimension": 0},
+                "model": {"kind": "flow", "variables": [f"x{i}" for i in range(10**6)],
+                          "parameters": {}, "equations": {}}}),  # a dimension of 10^6
 ])
 def test_hostile_files_are_rejected_quickly(text):
     start = time.perf_counter()
