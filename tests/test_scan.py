@@ -205,3 +205,39 @@ def test_most_simple_triangular_systems_were_counted():
     if not sum(TRIANGULAR_DECIDED.values()):
         return  # the property test was deselected
     assert TRIANGULAR_DECIDED[True] >= 0.8 * sum(TRIANGULAR_DECIDED.values()), TRIANGULAR_DECIDED
+
+
+COMPETITION = {"x": "x*(1 - x/K - a*y)", "y": "y*(1 - y - b*x)"}
+
+
+@pytest.mark.parametrize("boxes", [{"K": ["1.5", "1.7"]},
+                                   {"K": ["1.5", "1.7"], "a": ["0.49", "0.51"]}])
+def test_competition_count_over_parameter_boxes_in_which_equilibria_move(boxes):
+    # Lotka-Volterra competition with a = b = 1/2 (Murray, Mathematical Biology I, 3rd ed.,
+    # section 3.5: the textbook analysis): a source at (0, 0), saddles at (K, 0) and (0, 1), and
+    # the coexistence sink x = K(1 - a)/(1 - abK), y = 1 - bx; across K in [1.5, 1.7] the
+    # boundary state (K, 0) travels 0.2 and the sink 0.28. Exact values from sympy.
+    params = {"K": "1.6", "a": "1/2", "b": "1/2", **boxes}
+    m = make_model(["x", "y"], COMPETITION, params,
+                   region={"x": ["-0.5", "3"], "y": ["-0.5", "2"]})
+    r = scan(m)
+    assert r.count == 4, r.message
+    assert sorted(2 - z.stable_dimension for z in r.zeros if z.inside) == [0, 1, 1, 2]
+    x, y, K, a, b = sp.symbols("x y K a b", real=True)
+    solutions = sp.solve([x * (1 - x / K - a * y), y * (1 - y - b * x)], [x, y], dict=True)
+    assert len(solutions) == 4
+    for piece in r.certificate["pieces"]:
+        centre = {s: sp.Rational((F(lo) + F(hi)) / 2) for s, (lo, hi) in
+                  zip((K, a, b), (piece["parameters"][n] for n in ("K", "a", "b")))}
+        for s in solutions:
+            point = [s[x].subs(centre), s[y].subs(centre)]
+            holders = [z for z in piece["zeros"] if all(
+                F(lo) <= F(str(v)) <= F(hi) for v, (lo, hi) in zip(point, z["box"]))]
+            assert len(holders) == 1, (piece["parameters"], point)
+    assert verify_count(r.certificate) == 4
+
+
+def verify_count(cert) -> int:
+    from certify.check import check
+
+    return check(cert, "python").claim["count"]

@@ -82,6 +82,7 @@ class _Scanner:
         # A zero Newton found but Krawczyk could not enclose over a proper parameter box: give up
         # on this piece at once, so the parameter box is cut instead of the state space.
         self.abort = False
+        self.lost: list[np.ndarray] = []  # zeros Newton found and Krawczyk could not enclose
         self.wide = any(lo != hi for lo, hi in pbox)
         with self.ar.active():
             self.p_iv = [self.ar.interval(lo, hi) for lo, hi in self.pbox]
@@ -103,19 +104,39 @@ class _Scanner:
             if hint is not None:
                 node.update(hint)
                 continue
-            k = max(range(len(box)), key=lambda i: (box[i][1] - box[i][0]) / self.widths[i]
-                    if self.widths[i] else -1)
-            lo, hi = box[k]
-            if not self.widths[k] or (hi - lo) / self.widths[k] < MIN_WIDTH:
-                node["undecided"] = True
-                self.undecided.append(box)
-                continue
-            mid = (lo + hi) / 2
+            face = self._face(box)
+            if face is not None:
+                k, mid = face
+                lo, hi = box[k]
+            else:
+                k = max(range(len(box)), key=lambda i: (box[i][1] - box[i][0]) / self.widths[i]
+                        if self.widths[i] else -1)
+                lo, hi = box[k]
+                if not self.widths[k] or (hi - lo) / self.widths[k] < MIN_WIDTH:
+                    node["undecided"] = True
+                    self.undecided.append(box)
+                    continue
+                mid = (lo + hi) / 2
             low, high = {}, {}
             node.update({"split": k, "at": _q(mid), "low": low, "high": high})
             stack.append((high, box[:k] + [(mid, hi)] + box[k + 1:]))
             stack.append((low, box[:k] + [(lo, mid)] + box[k + 1:]))
         return root
+
+    def _face(self, box: list[Interval]) -> tuple[int, Fraction] | None:
+        """Return a cut (side, value) along a face of a zero's box that crosses this box.
+
+        Leaves then lie inside a uniqueness box or beside it, never across its face: a box
+        across a face can neither be given to the zero nor excluded.
+        """
+        for z in self.zeros:
+            if not all(lo < z_hi and z_lo < hi for (lo, hi), (z_lo, z_hi) in zip(box, z.box)):
+                continue
+            for k, ((lo, hi), (z_lo, z_hi)) in enumerate(zip(box, z.box)):
+                for at in (z_lo, z_hi):
+                    if lo < at < hi:
+                        return k, at
+        return None
 
     def _hint(self, box: list[Interval]) -> dict | None:
         """Return a leaf hint for the box, or None to cut it."""
@@ -142,7 +163,9 @@ class _Scanner:
     def _find_zero(self, box: list[Interval]) -> bool:
         """Look for a new zero near the box by float Newton; certify it; return whether found."""
         x = np.array([float((lo + hi) / 2) for lo, hi in box])
-        for _ in range(30):
+        lows = np.array([float(lo) for lo, _ in box])
+        highs = np.array([float(hi) for _, hi in box])
+        for step_number in range(30):
             fx, jx = float_residual(self.system, self.model.kind, 1, x)
             if not (np.all(np.isfinite(fx)) and np.all(np.isfinite(jx))):
                 return False
@@ -153,20 +176,30 @@ class _Scanner:
             x = x - step
             if np.linalg.norm(step) <= 1e-14 * (1 + np.linalg.norm(x)):
                 break
+            # Steering only: give up on an iterate that reached a known zero or wandered far
+            # from the box (a zero found from elsewhere is found again from its own box).
+            if self._known(x) or (step_number >= 3 and np.any(
+                    (x < lows - 4 * (highs - lows)) | (x > highs + 4 * (highs - lows)))):
+                return False
         else:
             return False
         slack = [float(hi - lo) / 20 for lo, hi in box]
         if not all(float(lo) - s <= v <= float(hi) + s for (lo, hi), s, v in zip(box, slack, x)):
             return False
-        for z in self.zeros:
-            if all(float(lo) <= v <= float(hi) for (lo, hi), v in zip(z.box, x)):
-                return False
+        if self._known(x):
+            return False
         zero = self._certify_zero(x)
         if zero is None:
             self.abort = self.wide
+            self.lost.append(x)
             return False
         self.zeros.append(zero)
         return True
+
+    def _known(self, x: np.ndarray) -> bool:
+        """Return whether the point lies in the uniqueness box of a zero already found."""
+        return any(all(float(lo) <= v <= float(hi) for (lo, hi), v in zip(z.box, x))
+                   for z in self.zeros)
 
     def _certify_zero(self, x: np.ndarray) -> Zero | None:
         """Return a zero with a uniqueness box grown as far as the Krawczyk test allows."""
@@ -185,22 +218,7 @@ class _Scanner:
             return None
         if any(self._meets(box, z.box) for z in self.zeros):
             return None
-        radius = [hi - c for (lo, hi), c in zip(box, centre)]
-        scale = [w / 4 for w in self.widths]
-        for step in range(GROWTH_STEPS):
-            trial_r = [max(r * 2, s / 2 ** (GROWTH_STEPS - step)) for r, s in zip(radius, scale)]
-            trial = [(c - r, c + r) for c, r in zip(centre, trial_r)]
-            if any(self._meets(trial, z.box) for z in self.zeros):
-                break
-            try:
-                with ar.active():
-                    image, _ = krawczyk_image(problem, ar, self.pbox, centre, trial, precond)
-                    kb = [ar.bounds(k) for k in image]
-            except DomainError:
-                break
-            if not all(b[0] < lo and hi < b[1] for b, (lo, hi) in zip(trial, kb)):
-                break
-            box, radius = trial, trial_r
+        box = self._grow(centre, box, precond)
         entry = {"centre": [_q(c) for c in centre], "box": [[_q(lo), _q(hi)] for lo, hi in box],
                  "preconditioner": [[_q(v) for v in row] for row in precond]}
         zero = Zero(entry=entry, box=box)
@@ -234,6 +252,43 @@ class _Scanner:
             zero.not_hyperbolic = True
             zero.reason = ("not hyperbolic (proved): "
                            + axis_word(attempt.verified.claim["eigenvalue"]))
+
+    def _grow(self, centre: list[Fraction], box: list[Interval], precond) -> list[Interval]:
+        """Return the box grown side by side as far as the Krawczyk test holds.
+
+        Each side is doubled on its own (a zero that does not move in one coordinate keeps a
+        thin side there otherwise), up to a quarter of the region's side, never meeting the
+        uniqueness box of another zero.
+        """
+        radius = [hi - c for (lo, hi), c in zip(box, centre)]
+        caps = [w / 4 for w in self.widths]
+        for step in range(2 * GROWTH_STEPS):
+            floor = [cap / 2 ** max(GROWTH_STEPS - step, 0) for cap in caps]
+            doubled = [min(max(r * 2, f), cap) for r, f, cap in zip(radius, floor, caps)]
+            grew = False
+            for k in range(len(box)):  # a side that fails now may pass once others grew
+                trial = radius[:k] + [doubled[k]] + radius[k + 1:]
+                if doubled[k] > radius[k] and self._holds(centre, trial, precond):
+                    radius, grew = trial, True
+            if not grew:
+                if doubled == radius or not self._holds(centre, doubled, precond):
+                    break
+                radius = doubled
+        return [(c - r, c + r) for c, r in zip(centre, radius)]
+
+    def _holds(self, centre: list[Fraction], radius: list[Fraction], precond) -> bool:
+        """Return whether the Krawczyk test holds on the box centre +- radius."""
+        trial = [(c - r, c + r) for c, r in zip(centre, radius)]
+        if any(self._meets(trial, z.box) for z in self.zeros):
+            return False
+        try:
+            with self.ar.active():
+                image, _ = krawczyk_image(self.problem, self.ar, self.pbox, centre, trial,
+                                          precond)
+                kb = [self.ar.bounds(k) for k in image]
+        except DomainError:
+            return False
+        return all(b[0] < lo and hi < b[1] for b, (lo, hi) in zip(trial, kb))
 
     @staticmethod
     def _meets(a: list[Interval], b: list[Interval]) -> bool:
@@ -293,7 +348,10 @@ def scan(model: Model, region: dict[str, Interval] | None = None,
         tree = scanner.run()
         done = scanner.done
         if scanner.undecided and can_cut and time.monotonic() < deadline and done < max_boxes:
-            k = max(range(len(rel)), key=lambda i: rel[i])
+            score = _movement(scanner, pbox, b)
+            if not any(score):
+                score = [float(r) for r in rel]
+            k = max(range(len(rel)), key=lambda i: score[i] if rel[i] > MIN_PIECE else -1.0)
             lo, hi = pbox[k]
             mid = (lo + hi) / 2
             todo += [pbox[:k] + [(mid, hi)] + pbox[k + 1:], pbox[:k] + [(lo, mid)] + pbox[k + 1:]]
@@ -340,6 +398,37 @@ def scan(model: Model, region: dict[str, Interval] | None = None,
     return result
 
 
+def _movement(scanner: _Scanner, pbox: list[Interval], region: list[Interval]) -> list[float]:
+    """Return, per parameter, how far the zeros found move across its range (floats, steering).
+
+    The largest |(J^-1 df/dp)_ik| wid(p_k) / wid(region_i) over the zeros and coordinates: the
+    parameter to cut is the one whose range moves a zero furthest in the region's own scale.
+    """
+    system, kind, names = scanner.system, scanner.model.kind, scanner.problem.params
+    widths = np.array([float(hi - lo) or 1.0 for lo, hi in region])
+    score = [0.0] * len(pbox)
+    points = [np.array([float(Fraction(c)) for c in z.entry["centre"]]) for z in scanner.zeros]
+    for x in points + scanner.lost:
+        try:
+            _, jx = float_residual(system, kind, 1, x)
+            jinv = np.linalg.inv(jx)
+        except (np.linalg.LinAlgError, ValueError):
+            continue
+        for k, (name, (lo, hi)) in enumerate(zip(names, pbox)):
+            if lo == hi:
+                continue
+            saved, h = system.point[name], float(hi - lo) / 2
+            system.point[name] = saved + h
+            up, _ = float_residual(system, kind, 1, x)
+            system.point[name] = saved - h
+            down, _ = float_residual(system, kind, 1, x)
+            system.point[name] = saved
+            move = np.abs(jinv @ (up - down)) / widths
+            if np.all(np.isfinite(move)):
+                score[k] = max(score[k], float(np.max(move)))
+    return score
+
+
 def _tight(entry: dict) -> list[Interval]:
     return [(Fraction(lo), Fraction(hi)) for lo, hi in entry.get("classification", entry)["box"]]
 
@@ -359,14 +448,11 @@ def _dims(piece: dict, b: list[Interval]) -> list:
 
 
 def _finish(scanner: _Scanner, b, tree, pbox, params) -> tuple[str, str] | None:
-    """Return (reason, message) when this piece cannot give a certified count, else None."""
-    if scanner.undecided:
-        budget = time.monotonic() > scanner.deadline or scanner.done - scanner.start > \
-            scanner.max_boxes
-        return ("budget" if budget else "undecided-boxes",
-                f"{len(scanner.undecided)} boxes stayed undecided " +
-                ("(the budget ran out)" if budget else
-                 "(near a singular zero, or a zero the search could not certify)"))
+    """Return (reason, message) when this piece cannot give a certified count, else None.
+
+    Each zero is placed first (inside, outside, or on the border of the region by its own
+    enclosure), so that a zero is called "on the border" only when it is.
+    """
     border = 0
     for z in scanner.zeros:
         t = _tight(z.entry)
@@ -376,6 +462,15 @@ def _finish(scanner: _Scanner, b, tree, pbox, params) -> tuple[str, str] | None:
         z.inside = inside if (inside or outside) else None
         z.stable_dimension = z.entry.get("classification", {}).get("stable_dimension")
         border += z.inside is None
+        if scanner.undecided and z.stable_dimension is not None:  # no checked certificate
+            z.stable_dimension, z.reason = None, "not reported: the count is not certified"
+    if scanner.undecided:
+        budget = time.monotonic() > scanner.deadline or scanner.done - scanner.start > \
+            scanner.max_boxes
+        return ("budget" if budget else "undecided-boxes",
+                f"{len(scanner.undecided)} boxes stayed undecided " +
+                ("(the budget ran out)" if budget else
+                 "(near a singular zero, or a zero the search could not certify)"))
     if border:
         return "on-boundary", (f"{border} zero(s) on or too near the border of the region to "
                                "say whether they are in it; widen or shift the region")
