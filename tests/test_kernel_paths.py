@@ -329,6 +329,12 @@ def test_count_refusals(circle_count, monkeypatch):
     _replace_leaf(d, "exclude", lambda leaf: {"zero": 0})
     cases.append((d, "count"))
     d = copy.deepcopy(base)
+    _replace_leaf(d, "exclude", lambda leaf: [leaf])
+    cases.append((d, "malformed"))  # a leaf that is not an object
+    d = copy.deepcopy(base)
+    _replace_leaf(d, "zero", lambda leaf: {**leaf, "junk": 1})
+    cases.append((d, "malformed"))  # a leaf with an extra key
+    d = copy.deepcopy(base)
     _replace_leaf(d, "zero", lambda leaf: {"exclude": 0})
     cases.append((d, "count"))
     d = copy.deepcopy(base)
