@@ -78,6 +78,10 @@ COUNTS = [
                                           region={"x": ["-3", "3"], "y": ["-3", "3"]})),
     ("saddle-node-box-count", make_model(["x"], ["mu - x**2"], {"mu": ["1/4", "1"]},
                                          region={"x": ["-2", "2"]})),
+    # Lotka-Volterra competition over K (zeros that travel: first-order forms in the count)
+    ("competition-box-count", make_model(["x", "y"], ["x*(1 - x/K - a*y)", "y*(1 - y - b*x)"],
+                                         {"K": ["1.5", "1.7"], "a": "1/2", "b": "1/2"},
+                                         region={"x": ["-0.5", "3"], "y": ["-0.5", "2"]})),
 ]
 
 
@@ -242,6 +246,25 @@ def tampered(valid: dict[str, dict]) -> list[tuple[str, object, str, str]]:
     twice = json.dumps(saddle, indent=1).replace('"claim": {', '"claim": {"verdict": "count", ',
                                                    1)
     out.append(("key-twice", twice, "malformed", "a key written twice in one object"))
+    moving = valid["competition-box-count"]
+    where = next((i, j) for i, p in enumerate(moving["pieces"]) for j, z in
+                 enumerate(p["zeros"]) if "sensitivity" in z)
+
+    def reverse_branch(doc):
+        zero = doc["pieces"][where[0]]["zeros"][where[1]]
+        zero["sensitivity"] = [[_neg(v) for v in row] for row in zero["sensitivity"]]
+
+    edit("count-branch-reversed", moving, reverse_branch, "krawczyk",
+         "a travelling zero's first-order form running the wrong way")
+
+    def hull_for_core(doc):  # the form's box without its travel: leaves outside the core
+        zero = doc["pieces"][where[0]]["zeros"][where[1]]
+        zero.pop("sensitivity")
+        zero.pop("preconditioner_slopes")
+        zero.pop("classification", None)
+
+    edit("count-branch-dropped", moving, hull_for_core, "krawczyk",
+         "a travelling zero's form dropped: its box alone does not hold the zero for every K")
     out.append(("not-json", "this is not JSON {", "malformed", "not JSON"))
     out.append(("deep-nesting", "[" * 100000 + "]" * 100000, "malformed", "nesting 10^5 deep"))
     out.append(("huge-number", '{"format": "certify-certificate", "version": 1, "precision": 5'

@@ -232,19 +232,7 @@ def check(data: dict, arithmetic: str = "flint") -> Verified:
                for j, x in enumerate(_list(piece["box"], n, f"{where}.box"))]
         precond = _matrix(piece["preconditioner"], n, f"{where}.preconditioner")
         s = _matrix(piece["inertia_matrix"], n, f"{where}.inertia_matrix")
-        sens = slopes = None
-        if "preconditioner_slopes" in piece:
-            if "sensitivity" not in piece:
-                raise CertificateRejected("malformed", f"{where}.preconditioner_slopes",
-                                          "found slopes without a sensitivity")
-            slopes = [_matrix(m, n, f"{where}.preconditioner_slopes[{a}]") for a, m in
-                      enumerate(_list(piece["preconditioner_slopes"], len(params),
-                                      f"{where}.preconditioner_slopes"))]
-        if "sensitivity" in piece:
-            sens = [[_rational(x, f"{where}.sensitivity[{a}][{b}]") for b, x in
-                     enumerate(_list(row, len(params), f"{where}.sensitivity[{a}]"))]
-                    for a, row in enumerate(_list(piece["sensitivity"], n,
-                                                  f"{where}.sensitivity"))]
+        sens, slopes = branch_fields(piece, n, len(params), where)
         with ar.active():
             enclosure, jac, inertia_ar = _check_krawczyk(ctx, ar, piece_box, centre, box,
                                                          precond, where, sens, slopes)
@@ -266,6 +254,23 @@ def _check_budget(tape: Tape, n: int, period: int, prec: int) -> None:
         raise CertificateRejected("budget", "precision", f"found {calls} function calls x "
                                   f"period {period} x {prec}^2 bits, expected at most "
                                   f"{MAX_FUNCTION_WORK}")
+
+
+def branch_fields(piece: dict, n: int, k: int, where: str):
+    """Return the optional first-order form of a piece or zero: (A, slopes), None when absent."""
+    sens = slopes = None
+    if "preconditioner_slopes" in piece:
+        if "sensitivity" not in piece:
+            raise CertificateRejected("malformed", f"{where}.preconditioner_slopes",
+                                      "found slopes without a sensitivity")
+        slopes = [_matrix(m, n, f"{where}.preconditioner_slopes[{a}]") for a, m in
+                  enumerate(_list(piece["preconditioner_slopes"], k,
+                                  f"{where}.preconditioner_slopes"))]
+    if "sensitivity" in piece:
+        sens = [[_rational(x, f"{where}.sensitivity[{a}][{b}]") for b, x in
+                 enumerate(_list(row, k, f"{where}.sensitivity[{a}]"))]
+                for a, row in enumerate(_list(piece["sensitivity"], n, f"{where}.sensitivity"))]
+    return sens, slopes
 
 
 def _other_arithmetic(name: str, prec: int):

@@ -10,11 +10,13 @@ rejected, so a count is never stated for it.
 
 from __future__ import annotations
 
+from fractions import Fraction
+
 from .ad import evaluate
 from .arith import DomainError
 from .certificate import (Box, CertificateRejected, Problem, _bounds, _check_krawczyk,
                           _check_tiling, _dict, _integer, _interval, _list, _matrix, _rational,
-                          check_inertia, krawczyk_image, piece_parameters)
+                          branch_fields, check_inertia, krawczyk_image, piece_parameters)
 
 MAX_NODES = 2_000_000
 MAX_DEPTH = 200
@@ -65,51 +67,94 @@ def _check_piece(ctx: Problem, ar, pbox: Box, piece: dict, b: Box, n: int, where
     zeros = _list(piece["zeros"], None, f"{where}.zeros")
     if len(zeros) > MAX_ZEROS:
         raise CertificateRejected("malformed", f"{where}.zeros", f"more than {MAX_ZEROS} zeros")
-    boxes, found = [], []
+    hulls, cores, found = [], [], []
     for j, zero in enumerate(zeros):
         at = f"{where}.zeros[{j}]"
-        _dict(zero, {"centre", "box", "preconditioner"}, at, {"classification"})
-        box, enclosure = _zero(ctx, ar, pbox, zero, n, at)
+        _dict(zero, {"centre", "box", "preconditioner"}, at, {"classification", *BRANCH})
+        form, enclosure, _, _ = _zero(ctx, ar, pbox, zero, n, at)
         stable = None
         if "classification" in zero:
             tight = zero["classification"]
             _dict(tight, {"centre", "box", "preconditioner", "inertia_matrix",
-                          "stable_dimension"}, f"{at}.classification")
-            tbox, enclosure = _zero(ctx, ar, pbox, tight, n, f"{at}.classification")
-            if not all(lo <= t_lo and t_hi <= hi for (lo, hi), (t_lo, t_hi) in zip(box, tbox)):
+                          "stable_dimension"}, f"{at}.classification", BRANCH)
+            inner, enclosure, jac, inertia_ar = _zero(ctx, ar, pbox, tight, n,
+                                                      f"{at}.classification")
+            if not _inside_for_every_p(inner, form, pbox):
                 raise CertificateRejected("count", f"{at}.classification.box",
                                           "found a box reaching outside the uniqueness box")
             stable = _integer(tight["stable_dimension"], 0, n,
                               f"{at}.classification.stable_dimension")
             s = _matrix(tight["inertia_matrix"], n, f"{at}.classification.inertia_matrix")
             with ar.active():
-                _, jac = evaluate(ctx.tape, ar, [ar.interval(lo, hi) for lo, hi in tbox],
-                                  [ar.interval(lo, hi) for lo, hi in pbox], ctx.period)
-                check_inertia(ctx, ar, jac, s, stable, f"{at}.classification")
+                check_inertia(ctx, inertia_ar, jac, s, stable, f"{at}.classification")
         inside = all(lo <= e_lo and e_hi <= hi for (lo, hi), (e_lo, e_hi) in zip(b, enclosure))
         outside = any(e_hi < lo or hi < e_lo for (lo, hi), (e_lo, e_hi) in zip(b, enclosure))
         if not (inside or outside):
             raise CertificateRejected("on-boundary", at, "found a zero whose enclosure "
                                       "crosses the border of the region")
-        for k, other in enumerate(boxes):
-            if all(o_lo <= hi and lo <= o_hi for (lo, hi), (o_lo, o_hi) in zip(box, other)):
+        hull, core = _hull(form, pbox), _core(form, pbox)
+        for k, other in enumerate(hulls):
+            if all(o_lo <= hi and lo <= o_hi for (lo, hi), (o_lo, o_hi) in zip(hull, other)):
                 raise CertificateRejected("count", at, f"found a uniqueness box meeting "
                                           f"that of zeros[{k}]")
-        boxes.append(box)
+        hulls.append(hull)
+        cores.append(core)
         found.append({"inside": inside, "stable_dimension": stable, "enclosure": enclosure})
-    return found, _check_tree(ctx, ar, pbox, piece["tree"], b, boxes, n, where)
+    return found, _check_tree(ctx, ar, pbox, piece["tree"], b, cores, n, where)
+
+
+BRANCH = {"sensitivity", "preconditioner_slopes"}
 
 
 def _zero(ctx: Problem, ar, pbox: Box, zero: dict, n: int, where: str):
-    """Return (X, K(X) as exact bounds) after the Krawczyk test of one zero's box."""
+    """Return ((c, E, A), enclosure, J, its arithmetic) after the Krawczyk test of one zero.
+
+    For every p in the piece, f(., p) has exactly one zero in X_p = c + A (p - p_c) + E
+    (obligation 1, or its first-order form when the zero has a sensitivity A; A = 0 otherwise).
+    """
     centre = [_rational(x, f"{where}.centre[{i}]")
               for i, x in enumerate(_list(zero["centre"], n, f"{where}.centre"))]
     box = [_interval(x, f"{where}.box[{i}]")
            for i, x in enumerate(_list(zero["box"], n, f"{where}.box"))]
     precond = _matrix(zero["preconditioner"], n, f"{where}.preconditioner")
+    sens, slopes = branch_fields(zero, n, len(pbox), where)
     with ar.active():
-        enclosure, _, _ = _check_krawczyk(ctx, ar, pbox, centre, box, precond, where)
-    return box, enclosure
+        enclosure, jac, inertia_ar = _check_krawczyk(ctx, ar, pbox, centre, box, precond, where,
+                                                     sens, slopes)
+    moves = sens or [[Fraction(0)] * len(pbox) for _ in range(n)]
+    errors = [(lo - c, hi - c) for (lo, hi), c in zip(box, centre)]
+    return (centre, errors, moves), enclosure, jac, inertia_ar
+
+
+def _spread(moves: list[list[Fraction]], pbox: Box) -> list[Fraction]:
+    """Return sum_l |A_il| rad(P_l) per coordinate: how far c + A (p - p_c) moves over P."""
+    return [sum(abs(a) * (hi - lo) / 2 for a, (lo, hi) in zip(row, pbox)) for row in moves]
+
+
+def _hull(form, pbox: Box) -> Box:
+    """Return a box holding X_p for every p (zeros with disjoint hulls are distinct)."""
+    centre, errors, moves = form
+    return [(c + e_lo - s, c + e_hi + s)
+            for c, (e_lo, e_hi), s in zip(centre, errors, _spread(moves, pbox))]
+
+
+def _core(form, pbox: Box) -> Box:
+    """Return the box inside X_p for every p (a leaf in it holds no zero but this one)."""
+    centre, errors, moves = form
+    return [(c + e_lo + s, c + e_hi - s)
+            for c, (e_lo, e_hi), s in zip(centre, errors, _spread(moves, pbox))]
+
+
+def _inside_for_every_p(inner, outer, pbox: Box) -> bool:
+    """Return whether c' + A'(p - p_c) + E' lies in c + A(p - p_c) + E for every p in P.
+
+    The difference c' - c + (A' - A)(p - p_c) + E' must lie in E: E' shifted by c' - c and
+    widened by sum_l |A'_il - A_il| rad(P_l).
+    """
+    (c1, e1, a1), (c0, e0, a0) = inner, outer
+    diff = [[x - y for x, y in zip(r1, r0)] for r1, r0 in zip(a1, a0)]
+    return all(lo0 <= d + lo1 - s and d + hi1 + s <= hi0 for d, (lo1, hi1), (lo0, hi0), s in
+               zip((x - y for x, y in zip(c1, c0)), e1, e0, _spread(diff, pbox)))
 
 
 def _check_tree(ctx: Problem, ar, pbox: Box, tree, region: Box, boxes: list[Box],

@@ -194,12 +194,11 @@ def certify_piece(problem: Problem, pbox: list[Interval], x: np.ndarray, prec: i
             "inertia_matrix": [[rational_text(v) for v in row] for row in s]}
 
 
-def certify_branch_piece(problem: Problem, system: FloatSystem, pbox: list[Interval],
-                         x: np.ndarray, prec: int, improve: bool = True) -> dict:
-    """Return a checked piece in first-order form: x(p) in x~ + A (p - p_c) + E.
+def branch_enclosure(problem: Problem, system: FloatSystem, pbox: list[Interval],
+                     x: np.ndarray, prec: int):
+    """Return (c, X, A, C, slopes, J, arithmetic): the first-order form's Krawczyk test passed.
 
-    A ~ -J^-1 df/dp at the parameter centre (central differences in floats: it only steers).
-    Raises Undecided.
+    For every p in the box, the zero lies in c + A (p - p_c) + (X - c). Raises Undecided.
     """
     n, k = len(x), len(pbox)
     ar = ArbArithmetic(prec)
@@ -274,6 +273,20 @@ def certify_branch_piece(problem: Problem, system: FloatSystem, pbox: list[Inter
             raise Undecided("box-too-wide", "the first-order branch form did not enclose")
     except DomainError as exc:
         raise Undecided("domain", str(exc)) from None
+    return centre, box, sens, precond, slopes_exact, jac, aff
+
+
+def certify_branch_piece(problem: Problem, system: FloatSystem, pbox: list[Interval],
+                         x: np.ndarray, prec: int, improve: bool = True) -> dict:
+    """Return a checked piece in first-order form: x(p) in x~ + A (p - p_c) + E.
+
+    A ~ -J^-1 df/dp at the parameter centre (central differences in floats: it only steers).
+    Raises Undecided.
+    """
+    n = len(x)
+    ar = ArbArithmetic(prec)
+    centre, box, sens, precond, slopes_exact, jac, aff = branch_enclosure(problem, system, pbox,
+                                                                         x, prec)
     jmid = np.array([[float(v.c.mid()) for v in row] for row in jac])
     s_float = inertia_matrix(jmid, problem.kind)
     if s_float is None:

@@ -18,11 +18,13 @@ import numpy as np
 
 from ..check.ad import evaluate
 from ..check.arith import ArbArithmetic, DomainError
-from ..check.certificate import CertificateRejected, check, krawczyk_image, rational_text
+from ..check.certificate import (CertificateRejected, _check_krawczyk, check, krawczyk_image,
+                                 rational_text)
+from ..check.region import _inside_for_every_p
 from ..model import Interval, Model
 from ..model.symbolic import FloatSystem
-from .equilibrium import Undecided, _inflate, certificate, certify_piece, float_residual, \
-    problem_of
+from .equilibrium import (Undecided, _inflate, branch_enclosure, certificate,
+                          certify_branch_piece, certify_piece, float_residual, problem_of)
 from .inertia import to_exact
 
 DEFAULT_MAX_BOXES = 200_000
@@ -36,7 +38,8 @@ class Zero:
     """A zero found by the scan: its uniqueness box, enclosure and classification."""
 
     entry: dict
-    box: list[Interval]
+    box: list[Interval]  # holds the zero's uniqueness box X_p for every p (disjoint from others)
+    core: list[Interval] | None = None  # inside X_p for every p: leaves here hold only this zero
     inside: bool | None = None
     stable_dimension: int | None = None
     enclosure: list[Interval] | None = None
@@ -130,9 +133,9 @@ class _Scanner:
         across a face can neither be given to the zero nor excluded.
         """
         for z in self.zeros:
-            if not all(lo < z_hi and z_lo < hi for (lo, hi), (z_lo, z_hi) in zip(box, z.box)):
+            if not all(lo < z_hi and z_lo < hi for (lo, hi), (z_lo, z_hi) in zip(box, z.core)):
                 continue
-            for k, ((lo, hi), (z_lo, z_hi)) in enumerate(zip(box, z.box)):
+            for k, ((lo, hi), (z_lo, z_hi)) in enumerate(zip(box, z.core)):
                 for at in (z_lo, z_hi):
                     if lo < at < hi:
                         return k, at
@@ -141,7 +144,7 @@ class _Scanner:
     def _hint(self, box: list[Interval]) -> dict | None:
         """Return a leaf hint for the box, or None to cut it."""
         for j, z in enumerate(self.zeros):
-            if all(z_lo <= lo and hi <= z_hi for (lo, hi), (z_lo, z_hi) in zip(box, z.box)):
+            if all(z_lo <= lo and hi <= z_hi for (lo, hi), (z_lo, z_hi) in zip(box, z.core)):
                 return {"zero": j}
         ar = self.ar
         try:
@@ -202,7 +205,18 @@ class _Scanner:
                    for z in self.zeros)
 
     def _certify_zero(self, x: np.ndarray) -> Zero | None:
-        """Return a zero with a uniqueness box grown as far as the Krawczyk test allows."""
+        """Return a zero with a uniqueness box grown as far as the Krawczyk test allows.
+
+        Over a parameter box where a plain box fails (the dependency problem), the first-order
+        branch form c + A (p - p_c) + E is tried instead.
+        """
+        zero = self._certify_plain_zero(x)
+        if zero is None and self.wide:
+            zero = self._certify_branch_zero(x)
+        return zero
+
+    def _certify_plain_zero(self, x: np.ndarray) -> Zero | None:
+        """Return a zero with a plain uniqueness box, or None."""
         problem, ar = self.problem, self.ar
         try:
             with ar.active():
@@ -219,9 +233,11 @@ class _Scanner:
         if any(self._meets(box, z.box) for z in self.zeros):
             return None
         box = self._grow(centre, box, precond)
+        if any(self._meets(box, z.box) for z in self.zeros):
+            return None
         entry = {"centre": [_q(c) for c in centre], "box": [[_q(lo), _q(hi)] for lo, hi in box],
                  "preconditioner": [[_q(v) for v in row] for row in precond]}
-        zero = Zero(entry=entry, box=box)
+        zero = Zero(entry=entry, box=box, core=box)
         try:
             piece = certify_piece(problem, self.pbox, x, 53)
         except Undecided as exc:
@@ -241,6 +257,47 @@ class _Scanner:
         entry["classification"]["stable_dimension"] = exact.inertia(s)[0]
         return zero
 
+    def _certify_branch_zero(self, x: np.ndarray) -> Zero | None:
+        """Return a zero in first-order form over the parameter piece, or None."""
+        try:
+            centre, box, sens, precond, slopes, _, _ = branch_enclosure(
+                self.problem, self.system, self.pbox, x, 53)
+        except Undecided:
+            return None
+        spread = [sum(abs(a) * (hi - lo) / 2 for a, (lo, hi) in zip(row, self.pbox))
+                  for row in sens]
+        # E must hold more than twice the travel for the core to hold the zero for every p.
+        start = [max(hi - c, 3 * s) for (lo, hi), c, s in zip(box, centre, spread)]
+        if not self._holds(centre, start, precond, (sens, slopes, spread)):
+            return None
+        box = [(c - r, c + r) for c, r in zip(centre, start)]
+        box = self._grow(centre, box, precond, (sens, slopes, spread))
+        hull = [(lo - s, hi + s) for (lo, hi), s in zip(box, spread)]
+        core = [(lo + s, hi - s) for (lo, hi), s in zip(box, spread)]
+        if any(self._meets(hull, z.box) for z in self.zeros) or any(lo > hi for lo, hi in core):
+            return None
+        entry = {"centre": [_q(c) for c in centre],
+                 "box": [[_q(lo), _q(hi)] for lo, hi in box],
+                 "preconditioner": [[_q(v) for v in row] for row in precond],
+                 "sensitivity": [[_q(v) for v in row] for row in sens],
+                 "preconditioner_slopes": [[[_q(v) for v in row] for row in m] for m in slopes]}
+        zero = Zero(entry=entry, box=hull, core=core)
+        try:
+            piece = certify_branch_piece(self.problem, self.system, self.pbox, x, 53)
+        except Undecided as exc:
+            zero.reason = f"{exc.reason}: {exc.message}"
+            return zero
+        from ..check import exact
+
+        tight = {k: piece[k] for k in ("centre", "box", "preconditioner", "sensitivity",
+                                       "preconditioner_slopes", "inertia_matrix")}
+        if _fits(tight, entry, self.pbox):
+            s = [[Fraction(v) for v in row] for row in piece["inertia_matrix"]]
+            entry["classification"] = {**tight, "stable_dimension": exact.inertia(s)[0]}
+        else:
+            zero.reason = "the box proving its kind reaches outside its uniqueness box"
+        return zero
+
     def _try_not_hyperbolic(self, zero: Zero, x: np.ndarray) -> None:
         """Prove the zero not hyperbolic when it is exactly rational (the reason says so)."""
         from ..vocabulary import axis_word
@@ -253,7 +310,8 @@ class _Scanner:
             zero.reason = ("not hyperbolic (proved): "
                            + axis_word(attempt.verified.claim["eigenvalue"]))
 
-    def _grow(self, centre: list[Fraction], box: list[Interval], precond) -> list[Interval]:
+    def _grow(self, centre: list[Fraction], box: list[Interval], precond,
+              branch=None) -> list[Interval]:
         """Return the box grown side by side as far as the Krawczyk test holds.
 
         Each side is doubled on its own (a zero that does not move in one coordinate keeps a
@@ -262,33 +320,42 @@ class _Scanner:
         """
         radius = [hi - c for (lo, hi), c in zip(box, centre)]
         caps = [w / 4 for w in self.widths]
-        for step in range(2 * GROWTH_STEPS):
-            floor = [cap / 2 ** max(GROWTH_STEPS - step, 0) for cap in caps]
-            doubled = [min(max(r * 2, f), cap) for r, f, cap in zip(radius, floor, caps)]
+        floor = [cap / 4**12 for cap in caps]  # a thin side starts here, 2^-24 of the cap
+        for _ in range(GROWTH_STEPS):  # sides grow fourfold: a box at most 4x too small
+            doubled = [min(max(r * 4, f), cap) for r, f, cap in zip(radius, floor, caps)]
             grew = False
             for k in range(len(box)):  # a side that fails now may pass once others grew
                 trial = radius[:k] + [doubled[k]] + radius[k + 1:]
-                if doubled[k] > radius[k] and self._holds(centre, trial, precond):
+                if doubled[k] > radius[k] and self._holds(centre, trial, precond, branch):
                     radius, grew = trial, True
-            if not grew:
-                if doubled == radius or not self._holds(centre, doubled, precond):
+            if not grew:  # coupled sides may only grow together: the 2, 3, ... thinnest ones
+                order = sorted(range(len(box)), key=lambda i: radius[i] / caps[i])
+                for size in range(2, len(box) + 1):
+                    trial = list(radius)
+                    for i in order[:size]:
+                        trial[i] = doubled[i]
+                    if trial != radius and self._holds(centre, trial, precond, branch):
+                        radius, grew = trial, True
+                        break
+                if not grew:
                     break
-                radius = doubled
         return [(c - r, c + r) for c, r in zip(centre, radius)]
 
-    def _holds(self, centre: list[Fraction], radius: list[Fraction], precond) -> bool:
-        """Return whether the Krawczyk test holds on the box centre +- radius."""
+    def _holds(self, centre: list[Fraction], radius: list[Fraction], precond,
+               branch=None) -> bool:
+        """Return whether the Krawczyk test (plain, or of the branch form) holds on c +- r."""
+        sens, slopes, spread = branch or (None, None, [0] * len(centre))
         trial = [(c - r, c + r) for c, r in zip(centre, radius)]
-        if any(self._meets(trial, z.box) for z in self.zeros):
+        hull = [(lo - s, hi + s) for (lo, hi), s in zip(trial, spread)]
+        if any(self._meets(hull, z.box) for z in self.zeros):
             return False
         try:
             with self.ar.active():
-                image, _ = krawczyk_image(self.problem, self.ar, self.pbox, centre, trial,
-                                          precond)
-                kb = [self.ar.bounds(k) for k in image]
-        except DomainError:
+                _check_krawczyk(self.problem, self.ar, self.pbox, centre, trial, precond, "zero",
+                                sens, slopes)
+        except CertificateRejected:
             return False
-        return all(b[0] < lo and hi < b[1] for b, (lo, hi) in zip(trial, kb))
+        return True
 
     @staticmethod
     def _meets(a: list[Interval], b: list[Interval]) -> bool:
@@ -396,6 +463,17 @@ def scan(model: Model, region: dict[str, Interval] | None = None,
     result.count, result.certificate = verified.claim["count"], cert
     result.pieces = len(pieces)
     return result
+
+
+def _fits(inner: dict, outer: dict, pbox: list[Interval]) -> bool:
+    """Return whether the form inner lies in the form outer for every parameter (as checked)."""
+    def form(entry):
+        centre = [Fraction(c) for c in entry["centre"]]
+        errors = [(Fraction(lo) - c, Fraction(hi) - c) for (lo, hi), c in
+                  zip(entry["box"], centre)]
+        return centre, errors, [[Fraction(v) for v in row] for row in entry["sensitivity"]]
+
+    return _inside_for_every_p(form(inner), form(outer), pbox)
 
 
 def _movement(scanner: _Scanner, pbox: list[Interval], region: list[Interval]) -> list[float]:
