@@ -136,7 +136,11 @@ def bench_scan() -> None:
                                 Fraction(30)), "z": (Fraction(-10), Fraction(60))})
     nine = make_model(["x", "y"], ["x - x**3", "y - y**3"], {},
                       region={"x": ["-1.5", "1.5"], "y": ["-1.5", "1.5"]})
-    for name, model, per_side in [("Lorenz, rho = 28", lorenz, 20), ("9-zero system", nine, 20)]:
+    competition = make_model(["x", "y"], ["x*(1 - x/K - a*y)", "y*(1 - y - b*x)"],
+                             {"K": ["1.5", "1.7"], "a": "1/2", "b": "1/2"},
+                             region={"x": ["-0.5", "3"], "y": ["-0.5", "2"]})
+    for name, model, per_side in [("Lorenz, rho = 28", lorenz, 20), ("9-zero system", nine, 20),
+                                  ("competition K box", competition, 20)]:
         t = time.perf_counter()
         r = scan(model)
         t_scan = time.perf_counter() - t
@@ -154,7 +158,8 @@ def bench_scan() -> None:
             if not any(np.linalg.norm(x - y) < 1e-8 for y in found):
                 found.append(x)
         t_float = time.perf_counter() - t
-        print(f"  {name:18s} certified count {r.count} in {t_scan:6.2f} s ({r.boxes} boxes, "
+        print(f"  {name:18s} certified count {r.count} in {t_scan:6.2f} s ({r.pieces} piece(s), "
+              f"{r.boxes} boxes, "
               f"{r.boxes / t_scan:7.0f} boxes/s)   float multi-start ({len(starts)} starts) "
               f"found {len(found)} in {t_float:6.2f} s   ratio {t_scan / t_float:5.2f}x")
 
