@@ -20,7 +20,8 @@ from ..check.ad import evaluate
 from ..check.arith import ArbArithmetic, DomainError
 from ..check.certificate import (CertificateRejected, _check_krawczyk, check, krawczyk_image,
                                  rational_text)
-from ..check.region import _inside_for_every_p
+from ..check import exact
+from ..check.region import _core, _hull, _inside_for_every_p, _spread
 from ..model import Interval, Model
 from ..model.symbolic import FloatSystem
 from .equilibrium import (Undecided, _inflate, branch_enclosure, certificate,
@@ -232,9 +233,7 @@ class _Scanner:
             return None
         if any(self._meets(box, z.box) for z in self.zeros):
             return None
-        box = self._grow(centre, box, precond)
-        if any(self._meets(box, z.box) for z in self.zeros):
-            return None
+        box = self._grow(centre, box, precond)  # every trial kept clear of the other zeros
         entry = {"centre": [_q(c) for c in centre], "box": [[_q(lo), _q(hi)] for lo, hi in box],
                  "preconditioner": [[_q(v) for v in row] for row in precond]}
         zero = Zero(entry=entry, box=box, core=box)
@@ -249,8 +248,6 @@ class _Scanner:
         if not all(lo <= t_lo and t_hi <= hi for (lo, hi), (t_lo, t_hi) in zip(box, tight)):
             zero.reason = "the box proving its kind reaches outside its uniqueness box"
             return zero
-        from ..check import exact
-
         entry["classification"] = {k: piece[k] for k in
                                    ("centre", "box", "preconditioner", "inertia_matrix")}
         s = [[Fraction(v) for v in row] for row in piece["inertia_matrix"]]
@@ -264,31 +261,25 @@ class _Scanner:
                 self.problem, self.system, self.pbox, x, 53)
         except Undecided:
             return None
-        spread = [sum(abs(a) * (hi - lo) / 2 for a, (lo, hi) in zip(row, self.pbox))
-                  for row in sens]
+        spread = _spread(sens, self.pbox)
         # E must hold more than twice the travel for the core to hold the zero for every p.
         start = [max(hi - c, 3 * s) for (lo, hi), c, s in zip(box, centre, spread)]
         if not self._holds(centre, start, precond, (sens, slopes, spread)):
             return None
         box = [(c - r, c + r) for c, r in zip(centre, start)]
-        box = self._grow(centre, box, precond, (sens, slopes, spread))
-        hull = [(lo - s, hi + s) for (lo, hi), s in zip(box, spread)]
-        core = [(lo + s, hi - s) for (lo, hi), s in zip(box, spread)]
-        if any(self._meets(hull, z.box) for z in self.zeros) or any(lo > hi for lo, hi in core):
-            return None
+        box = self._grow(centre, box, precond, (sens, slopes, spread))  # hulls kept apart
+        form = (centre, [(lo - c, hi - c) for (lo, hi), c in zip(box, centre)], sens)
         entry = {"centre": [_q(c) for c in centre],
                  "box": [[_q(lo), _q(hi)] for lo, hi in box],
                  "preconditioner": [[_q(v) for v in row] for row in precond],
                  "sensitivity": [[_q(v) for v in row] for row in sens],
                  "preconditioner_slopes": [[[_q(v) for v in row] for row in m] for m in slopes]}
-        zero = Zero(entry=entry, box=hull, core=core)
+        zero = Zero(entry=entry, box=_hull(form, self.pbox), core=_core(form, self.pbox))
         try:
             piece = certify_branch_piece(self.problem, self.system, self.pbox, x, 53)
         except Undecided as exc:
             zero.reason = f"{exc.reason}: {exc.message}"
             return zero
-        from ..check import exact
-
         tight = {k: piece[k] for k in ("centre", "box", "preconditioner", "sensitivity",
                                        "preconditioner_slopes", "inertia_matrix")}
         if _fits(tight, entry, self.pbox):
