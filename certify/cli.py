@@ -387,7 +387,9 @@ def writable_folder(path: str, option: str, create: bool = True) -> Path:
 
 
 def _write_json(doc: dict, path: str | Path, option: str) -> None:
-    _atomic_text(str(path), (json.dumps(doc, indent=1) + "\n").encode(), option)
+    from .io.files import json_bytes
+
+    _atomic_text(str(path), json_bytes(doc), option)
 
 
 def _atomic_text(path: str, data: bytes, option: str) -> None:
@@ -410,8 +412,7 @@ def _gate(args) -> int:
     outcomes = gate.evaluate(claims, out, ("flint", "python") if out else ("flint",))
     result = gate.gate_json(claims, outcomes)
     if out is not None:
-        _atomic_text(str(out / "gate.json"), (json.dumps(result, indent=1) + "\n").encode(),
-                     "--out")
+        _write_json(result, out / "gate.json", "--out")
     if args.junit:
         _atomic_text(args.junit, gate.junit_xml(claims, outcomes), "--junit")
     if args.json:

@@ -8,9 +8,14 @@ import tempfile
 from pathlib import Path
 
 
+def json_bytes(doc: dict) -> bytes:
+    """Return a JSON document as the tool writes it (certificates, manifests, gate.json)."""
+    return (json.dumps(doc, indent=1) + "\n").encode()
+
+
 def write_certificate(cert: dict, path: str | Path) -> None:
     """Write a certificate atomically (see write_atomic)."""
-    write_atomic(path, (json.dumps(cert, indent=1) + "\n").encode())
+    write_atomic(path, json_bytes(cert))
 
 
 def write_atomic(path: str | Path, data: bytes) -> None:
