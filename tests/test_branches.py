@@ -12,7 +12,7 @@ from hypothesis import strategies as st
 
 from certify import CertificateRejected, equilibrium, make_model, verify
 from certify.check.ad import evaluate
-from certify.check.affine import AffineArithmetic, vertex_matrices
+from certify.check.forms import FormArithmetic
 from certify.check.arith import ArbArithmetic, DomainError
 from certify.check.dyadic import DyadicArithmetic
 from certify.check.expr import Tape, parse_expression
@@ -108,10 +108,10 @@ def test_altered_sensitivity_or_remainder_is_rejected():
                                   "cos(x - p)", "tan(x*p/4)", "tanh(x*p)", "sinh(x - p)",
                                   "cosh(x*p)", "atan(x*p)", "x**3/p", "x**(-2)", "x**p",
                                   "p**0*x"])
-def test_affine_functions_contain_the_values_along_the_parameter(base, text):
+def test_parameter_form_functions_contain_the_values_along_the_parameter(base, text):
     mpmath.mp.dps = 30
     tape = Tape([parse_expression(text, {"x", "p"})], ["x"], ["p"])
-    ar = AffineArithmetic(base, 1)
+    ar = FormArithmetic(base, 1)
     with ar.active():
         x = ar.form(base.const(F(3, 2)), [base.const(F(1, 10))])  # x = 3/2 + e/10
         p = ar.form(base.const(F(2)), [base.const(F(1, 4))])      # p = 2 + e/4
@@ -135,24 +135,24 @@ def test_affine_functions_contain_the_values_along_the_parameter(base, text):
                 assert value <= mpmath.mpf(hi.numerator) / hi.denominator + 1e-25
 
 
-def test_affine_domain_and_many_parameters():
+def test_parameter_form_domain_and_many_parameters():
     base = ArbArithmetic(53)
-    ar = AffineArithmetic(base, 1)
+    ar = FormArithmetic(base, 1)
     x = ar.form(base.const(F(0)), [base.const(F(1))])  # x = e over [-1, 1]
     with pytest.raises(DomainError):
         ar.call("log", x, "log(x)")
     with pytest.raises(DomainError):
         ar.div(ar.const(F(1)), x)
     exact_base = DyadicArithmetic(53)  # exact ends: the range of 1 + e is exactly [0, 2]
-    exact_ar = AffineArithmetic(exact_base, 1)
+    exact_ar = FormArithmetic(exact_base, 1)
     with pytest.raises(DomainError, match="not differentiable"):
         exact_ar.call("sqrt", exact_ar.form(exact_base.const(F(1)), [exact_base.const(F(1))]),
                       "sqrt(x)")
     assert ar.exact_integer(ar.const(F(3))) == 3 and ar.exact_integer(x) is None
     assert ar.positive(ar.const(F(1)))
-    wide = AffineArithmetic(base, 5)  # beyond MAX_VERTICES_PARAMETERS: the range is used
+    wide = FormArithmetic(base, 5)  # beyond MAX_VERTICES_PARAMETERS: the range is used
     entry = wide.form(base.const(F(3)), [base.const(F(1, 10))] * 5)
-    families = list(vertex_matrices(wide, [[entry]]))
+    families = list(wide.vertex_matrices([[entry]]))
     assert len(families) == 1 and families[0][0][0][0] <= F(5, 2)
 
 
@@ -166,7 +166,7 @@ def test_logistic_map_branch_over_a_parameter_box():
 
 def test_branch_refusals():
     from certify.check import check
-    from certify.check import certificate as cert_module
+    from certify.check import inertia, reader
     from flint import arb
 
     r = equilibrium(lorenz(["27", "29"]), [{"x": 8, "y": 8, "z": 27}])[0]
@@ -181,9 +181,9 @@ def test_branch_refusals():
         check(bad)
     assert info.value.code == "domain"
     base = ArbArithmetic(53)
-    aff = AffineArithmetic(base, 1)
+    aff = FormArithmetic(base, 1)
     nan = aff.form(arb("nan"), [base.const(F(0))])
-    problem = cert_module.Problem(None, "flow", 1, [], {})
+    problem = reader.Problem(None, "flow", 1, [], {})
     with pytest.raises(CertificateRejected) as info:
-        cert_module.check_inertia(problem, aff, [[nan]], [[F(1)]], 1, "here")
+        inertia.check_inertia(problem, aff, [[nan]], [[F(1)]], 1, "here")
     assert info.value.code == "domain"

@@ -9,7 +9,8 @@ from pathlib import Path
 
 import pytest
 
-from certify.check.expr import ExpressionError, parse_expression, parse_number, parse_rational
+from certify.check.expr import ExpressionError, parse_expression, parse_number
+from certify.model.numbers import parse_rational
 
 NAMES = frozenset({"x", "y", "a"})
 

@@ -101,6 +101,44 @@ def exact_size_bound(tape: Tape, state: list[Fraction], params: list[Fraction], 
     return max(values + grads + [0])
 
 
+def apply(ar, op: str, x, what: str, n: int = 0):
+    """Return op(x): a whitelisted function, "recip" (1/x) or "pow" (x**n, n an integer)."""
+    if op == "pow":
+        return ar.ipow(x, n, what)
+    return ar.div(ar.const(Fraction(1)), x, what) if op == "recip" else ar.call(op, x, what)
+
+
+def derivatives(ar, op: str, x, fx, what: str, n: int = 0, second: bool = False):
+    """Return (op'(x), op''(x) when second, else None) over any arithmetic, fx being op(x).
+
+    The kernel's one table of derivatives: forward-mode differentiation uses the first, the
+    parameter forms the first at a centre and the second over a range.
+    """
+    one, two = ar.const(Fraction(1)), ar.const(Fraction(2))
+    if op == "exp":
+        return fx, fx
+    if op in ("sinh", "cosh"):
+        return ar.call("cosh" if op == "sinh" else "sinh", x, what), fx
+    if op in ("sin", "cos"):
+        d1 = ar.call("cos", x, what) if op == "sin" else -ar.call("sin", x, what)
+        return d1, -fx
+    if op == "pow":
+        d1 = ar.const(Fraction(n)) * ar.ipow(x, n - 1, what)
+        return d1, ar.const(Fraction(n * (n - 1))) * ar.ipow(x, n - 2, what) if second else None
+    if op == "sqrt" and not ar.positive(fx):
+        raise DomainError(what, "sqrt is not differentiable at 0")
+    if op in ("log", "sqrt", "atan"):
+        q = {"log": x, "sqrt": fx + fx, "atan": one + ar.ipow(x, 2, what)}[op]
+        d1 = ar.div(one, q, what)
+        if not second or op == "log":
+            return d1, -(d1 * d1) if second else None
+        return d1, -ar.div(d1, x + x, what) if op == "sqrt" else -(x + x) * d1 * d1
+    # tan: 1 + f^2, tanh: 1 - f^2, recip: -f^2; then f'' = 2 s f f' with s = 1, -1, -1
+    sign = one if op == "tan" else -one
+    d1 = (one if op != "recip" else ar.const(Fraction(0))) + sign * ar.ipow(fx, 2, what)
+    return d1, two * sign * fx * d1 if second else None
+
+
 def _power(ar, base: Dual, expo: Dual, what: str) -> Dual:
     """Return base**expo: an integer power for an exact integer exponent, else exp(e log b)."""
     vb, gb = base
@@ -110,7 +148,7 @@ def _power(ar, base: Dual, expo: Dual, what: str) -> Dual:
         v = ar.ipow(vb, n, what)
         if not gb or n == 0:
             return v, {}
-        return v, _scale(gb, ar.const(Fraction(n)) * ar.ipow(vb, n - 1, what))
+        return v, _scale(gb, derivatives(ar, "pow", vb, v, what, n)[0])
     if not ar.positive(vb):
         raise DomainError(what, "non-integer power of an interval reaching <= 0")
     lb = ar.call("log", vb, what)
@@ -122,32 +160,7 @@ def _power(ar, base: Dual, expo: Dual, what: str) -> Dual:
 def _function(ar, fname: str, x, gx: dict, what: str) -> Dual:
     """Return fname(x) with its derivative times gx."""
     v = ar.call(fname, x, what)
-    if not gx:
-        return v, {}
-    one = ar.const(Fraction(1))
-    if fname == "exp":
-        d = v
-    elif fname == "log":
-        d = ar.div(one, x, what)
-    elif fname == "sqrt":
-        if not ar.positive(v):
-            raise DomainError(what, "sqrt is not differentiable at 0")
-        d = ar.div(one, v + v, what)
-    elif fname == "sin":
-        d = ar.call("cos", x, what)
-    elif fname == "cos":
-        d = -ar.call("sin", x, what)
-    elif fname == "tan":
-        d = one + ar.ipow(v, 2, what)
-    elif fname == "tanh":
-        d = one - ar.ipow(v, 2, what)
-    elif fname == "sinh":
-        d = ar.call("cosh", x, what)
-    elif fname == "cosh":
-        d = ar.call("sinh", x, what)
-    else:  # atan
-        d = ar.div(one, one + ar.ipow(x, 2, what), what)
-    return v, _scale(gx, d)
+    return (v, _scale(gx, derivatives(ar, fname, x, v, what)[0])) if gx else (v, {})
 
 
 def evaluate(tape: Tape, ar, box: list, params: list, period: int = 1,

@@ -1,8 +1,12 @@
-"""Arithmetics for the checker: python-flint's arb balls, and exact rationals.
+"""The arithmetic protocol, the rules every arithmetic shares, and two of the arithmetics.
 
-An arithmetic turns exact rationals into its own numbers, combines them with + - * and the
-methods below, and tells exact outward bounds back as Fractions. Every method that can leave
-its domain raises DomainError instead of returning nan; precision is fixed per instance.
+An arithmetic turns exact rationals into its own values and combines them with + - * and
+unary minus. Each backend supplies a few primitives only: ``const``, ``interval``, ``bounds``
+(exact outward bounds as Fractions), ``ends`` (the two ends as point values), ``hull``,
+``magnitude``, ``positive``, ``exact_integer``, ``quotient`` (for a divisor known to exclude 0)
+and ``elementary`` (for an argument known to lie in the function's domain). The rules built on
+them are written once, in :class:`Rules`: the domain of every operation, division and integer
+powers. A value outside a domain raises DomainError, never nan; precision is fixed per instance.
 """
 
 from __future__ import annotations
@@ -38,7 +42,53 @@ def power_by_squaring(one, base, n: int):
     return result
 
 
-class ArbArithmetic:
+class Rules:
+    """Domains, division and integer powers over a backend's primitives, written once."""
+
+    def finite(self, y, what: str):
+        """Return y, or raise DomainError when the backend produced no finite value."""
+        return y
+
+    def nonzero(self, x) -> bool:
+        """Return whether x excludes 0."""
+        return self.positive(x) or self.positive(-x)
+
+    def div(self, a, b, what: str = "/"):
+        """Return a / b, refusing a divisor that may be 0."""
+        if not self.nonzero(b):
+            raise DomainError(what, "division by an interval containing 0")
+        return self.finite(self.quotient(a, b), what)
+
+    def ipow(self, x, n: int, what: str = "**"):
+        """Return x**n for an integer n: from the ends, and from 0 for an even power over 0.
+
+        x**n is monotone in x for odd n and on each side of 0 for even n, so the powers of the
+        ends (exact points, by repeated squaring) bound it; tight at 0.
+        """
+        one = self.const(Fraction(1))
+        if n < 0:
+            return self.div(one, self.ipow(x, -n, what), what)
+        if n <= 1:
+            return one if n == 0 else x
+        if n % 2 == 0 and not self.nonzero(x):
+            top = power_by_squaring(one, self.magnitude(x), n)
+            return self.finite(self.hull(self.const(Fraction(0)), top), what)
+        lo, hi = self.ends(x)
+        ends = power_by_squaring(one, lo, n), power_by_squaring(one, hi, n)
+        return self.finite(self.hull(*ends), what)
+
+    def call(self, fname: str, x, what: str):
+        """Return the whitelisted function fname applied to x, with its domain checked."""
+        if fname == "log" and not self.positive(x):
+            raise DomainError(what, "log of an interval reaching <= 0")
+        if fname == "sqrt" and self.bounds(x)[0] < 0:
+            raise DomainError(what, "sqrt of an interval reaching < 0")
+        if fname == "tan" and not self.nonzero(self.elementary("cos", x, what)):
+            raise DomainError(what, "tan of an interval reaching a pole")
+        return self.finite(self.elementary(fname, x, what), what)
+
+
+class ArbArithmetic(Rules):
     """Outward-rounded ball arithmetic from python-flint at an explicit precision in bits."""
 
     name = "flint"
@@ -59,17 +109,23 @@ class ArbArithmetic:
         return self.flint.arb(self.flint.fmpq(q.numerator, q.denominator))
 
     def interval(self, lo: Fraction, hi: Fraction):
-        """Return a ball containing the closed interval [lo, hi].
+        """Return a ball containing the closed interval [lo, hi]."""
+        return self.const(lo) if lo == hi else self.hull(self.const(lo), self.const(hi))
 
-        A ball's radius carries 30 bits, so a union can reach slightly past an end; an interval
-        of one sign is cut back to that sign (its exact range lies there).
+    def hull(self, a, b):
+        """Return a ball containing a and b.
+
+        A ball's radius carries 30 bits, so a union can reach slightly past an end; the union of
+        two values of one sign is cut back to that sign (its exact range lies there).
         """
-        if lo == hi:
-            return self.const(lo)
-        ball = self.const(lo).union(self.const(hi))
-        if lo >= 0:
+        ball = a.union(b)
+        if a >= 0 and b >= 0:
             return ball.nonnegative_part()
-        return -((-ball).nonnegative_part()) if hi <= 0 else ball
+        return -((-ball).nonnegative_part()) if a <= 0 and b <= 0 else ball
+
+    def ends(self, x):
+        """Return the lower and upper end of x as exact points."""
+        return x.lower(), x.upper()
 
     def magnitude(self, x):
         """Return a ball whose upper end bounds |x| from above."""
@@ -96,53 +152,26 @@ class ArbArithmetic:
         """Return whether every point of x is > 0."""
         return bool(x > 0)
 
-    def _finite(self, y, what: str):
+    def finite(self, y, what: str):
+        """Return y, refusing an infinite or undefined ball."""
         if not y.is_finite():
             raise DomainError(what, "overflow or undefined value")
         return y
 
-    def div(self, a, b, what: str = "/"):
-        """Return a / b, refusing a divisor that may be 0."""
-        if not (b > 0 or b < 0):
-            raise DomainError(what, "division by an interval containing 0")
-        return self._finite(a / b, what)
+    def quotient(self, a, b):
+        """Return a / b."""
+        return a / b
 
-    def ipow(self, x, n: int, what: str = "**"):
-        """Return x**n for an integer n, tight at 0 (arb's own ** gives nan when mid is 0)."""
-        if n < 0:
-            return self.div(self.const(Fraction(1)), self.ipow(x, -n, what), what)
-        if n == 0:
-            return self.const(Fraction(1))
-        if n == 1:
-            return x
-        arb = self.flint.arb
-        if n % 2 == 0:
-            lo, hi = x.abs_lower(), x.abs_upper()
-            low = arb(0) if lo == 0 else self._point_pow(lo, n)
-            return self._finite(low.union(self._point_pow(hi, n)).nonnegative_part(), what)
-        lo, hi = x.lower(), x.upper()
-        return self._finite(self._point_pow(lo, n).union(self._point_pow(hi, n)), what)
-
-    def _point_pow(self, p, n: int):
-        """Return p**n for an exact point p by repeated squaring in ball arithmetic."""
-        return power_by_squaring(self.flint.arb(1), p, n)
-
-    def call(self, fname: str, x, what: str):
-        """Return the whitelisted function fname applied to x, with its domain checked."""
-        if fname == "log" and not x > 0:
-            raise DomainError(what, "log of an interval reaching <= 0")
+    def elementary(self, fname: str, x, what: str):
+        """Return fname(x); sqrt from its ends (arb's own is wide near 0)."""
         if fname == "sqrt":
-            if not x >= 0:
-                raise DomainError(what, "sqrt of an interval reaching < 0")
             lo, hi = x.lower(), x.upper()
             low = self.flint.arb(0) if not lo > 0 else lo.sqrt()
-            return self._finite(low.union(hi.sqrt()).nonnegative_part(), what)
-        if fname == "tan" and not (x.cos() > 0 or x.cos() < 0):
-            raise DomainError(what, "tan of an interval reaching a pole")
-        return self._finite(getattr(x, fname)(), what)
+            return self.hull(low, hi.sqrt())
+        return getattr(x, fname)()
 
 
-class ExactArithmetic:
+class ExactArithmetic(Rules):
     """Exact rational arithmetic on points; any function other than + - * / ** is refused."""
 
     name = "exact"
@@ -156,6 +185,22 @@ class ExactArithmetic:
         """Return q."""
         return q
 
+    def bounds(self, x: Fraction) -> Bounds:
+        """Return (x, x)."""
+        return x, x
+
+    def ends(self, x: Fraction) -> tuple[Fraction, Fraction]:
+        """Return (x, x)."""
+        return x, x
+
+    def hull(self, a: Fraction, b: Fraction) -> Fraction:
+        """Return a; exact evaluation only forms the hull of a point with itself."""
+        return a
+
+    def magnitude(self, x: Fraction) -> Fraction:
+        """Return |x|."""
+        return abs(x)
+
     def exact_integer(self, x: Fraction) -> int | None:
         """Return x as an int when it is an integer."""
         return int(x) if x.denominator == 1 else None
@@ -164,18 +209,10 @@ class ExactArithmetic:
         """Return whether x > 0."""
         return x > 0
 
-    def div(self, a: Fraction, b: Fraction, what: str = "/") -> Fraction:
-        """Return a / b for b != 0."""
-        if b == 0:
-            raise DomainError(what, "division by 0")
+    def quotient(self, a: Fraction, b: Fraction) -> Fraction:
+        """Return a / b."""
         return a / b
 
-    def ipow(self, x: Fraction, n: int, what: str = "**") -> Fraction:
-        """Return x**n exactly."""
-        if n < 0 and x == 0:
-            raise DomainError(what, "division by 0")
-        return x**n
-
-    def call(self, fname: str, x: Fraction, what: str) -> Fraction:
+    def elementary(self, fname: str, x: Fraction, what: str) -> Fraction:
         """Refuse transcendental functions, which have no exact rational value in general."""
         raise DomainError(what, f"{fname} has no exact rational value")

@@ -16,7 +16,7 @@ import math
 from math import isqrt
 from typing import Iterator
 
-from .arith import Bounds, DomainError, power_by_squaring
+from .arith import Bounds, DomainError, Rules
 
 GUARD = 24  # extra bits for the series inside elementary functions
 MAX_ARGUMENT = 2**20  # |x| beyond this: exp/sin/cos refuse (DomainError), never a huge loop
@@ -123,7 +123,7 @@ def _hull(a: Dyadic, b: Dyadic) -> Dyadic:
     return Dyadic(lo, hi, max(a.p, b.p))
 
 
-class DyadicArithmetic:
+class DyadicArithmetic(Rules):
     """Outward-rounded dyadic intervals at an explicit precision; standard library only."""
 
     name = "python"
@@ -173,10 +173,16 @@ class DyadicArithmetic:
         """Return whether every point of x is > 0."""
         return x.positive()
 
-    def div(self, a: Dyadic, b: Dyadic, what: str = "/") -> Dyadic:
-        """Return a / b, refusing a divisor that may be 0."""
-        if not (b.positive() or b.negative()):
-            raise DomainError(what, "division by an interval containing 0")
+    def ends(self, x: Dyadic) -> tuple[Dyadic, Dyadic]:
+        """Return the two ends as point intervals."""
+        return x.point(0), x.point(1)
+
+    def hull(self, a: Dyadic, b: Dyadic) -> Dyadic:
+        """Return the smallest interval holding a and b."""
+        return _hull(a, b)
+
+    def quotient(self, a: Dyadic, b: Dyadic) -> Dyadic:
+        """Return a / b for b excluding 0: a times [1/hi, 1/lo], each end rounded outward."""
         p = max(a.p, b.p)
 
         def recip(m: int, e: int, up: bool) -> tuple[int, int]:
@@ -186,31 +192,10 @@ class DyadicArithmetic:
 
         return a * Dyadic(recip(*b.hi, False), recip(*b.lo, True), p)
 
-    def ipow(self, x: Dyadic, n: int, what: str = "**") -> Dyadic:
-        """Return x**n for an integer n: even powers start at 0 when x contains 0."""
-        one = self.const(Fraction(1))
-        if n < 0:
-            return self.div(one, self.ipow(x, -n, what), what)
-        if n == 0:
-            return one
-        if n % 2 == 0:
-            if x.positive() or x.negative():
-                ends = [self._pow_point(x.point(0), n), self._pow_point(x.point(1), n)]
-                return _hull(*ends)
-            return Dyadic((0, 0), self._pow_point(x.magnitude(), n).hi, x.p)
-        return Dyadic(self._pow_point(x.point(0), n).lo, self._pow_point(x.point(1), n).hi, x.p)
-
-    def _pow_point(self, x: Dyadic, n: int) -> Dyadic:
-        return power_by_squaring(self.const(Fraction(1)), x, n)
-
     # ------------------------------------------------------------ elementary functions
 
-    def call(self, fname: str, x: Dyadic, what: str) -> Dyadic:
-        """Return fname(x) with its domain checked; monotone pieces use the ends."""
-        if fname == "log" and not x.positive():
-            raise DomainError(what, "log of an interval reaching <= 0")
-        if fname == "sqrt" and x.lo[0] < 0:
-            raise DomainError(what, "sqrt of an interval reaching < 0")
+    def elementary(self, fname: str, x: Dyadic, what: str) -> Dyadic:
+        """Return fname(x) for x in its domain; monotone pieces use the ends."""
         if fname in ("exp", "log", "sqrt", "atan", "sinh", "tanh"):
             f = getattr(self, "_" + fname)
             return Dyadic(f(x.point(0), what).lo, f(x.point(1), what).hi, x.p)
@@ -224,10 +209,7 @@ class DyadicArithmetic:
             return self._cos_interval(x, what)
         if fname == "sin":
             return self._cos_interval(x - _scale(self._pi(x.p + GUARD), -1), what)
-        c = self._cos_interval(x, what)
-        if not (c.positive() or c.negative()):
-            raise DomainError(what, "tan of an interval reaching a pole")
-        return self.div(self.call("sin", x, what), c, what)
+        return self.div(self.elementary("sin", x, what), self._cos_interval(x, what), what)
 
     def _series(self, first: Dyadic, ratio, w: int) -> Dyadic:
         """Return t_0 + t_1 + ... with t_0 = first, t_{k+1} = t_k * ratio(k), plus the tail.

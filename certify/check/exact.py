@@ -35,23 +35,24 @@ def _integer_matrix(a: Matrix, limit: int = MAX_ELIMINATION_BITS) -> tuple[list[
     return m, d
 
 
-def leading_minor_signs(a: Matrix) -> list[int] | None:
-    """Return the signs of the leading principal minors of P a P^T for a symmetric pivot order.
+def _pivots(m: list[list[int]]):
+    """Yield (d_k, moved): the leading minors of fraction-free (Bareiss) elimination of m.
 
-    Fraction-free Bareiss elimination; at each step a remaining index with a nonzero diagonal
-    entry is moved to the front (a symmetric permutation, which keeps the inertia). When every
-    remaining diagonal entry is zero but some m_ij is not, row and column j are added to row and
-    column i (a congruence, which keeps the inertia, Sylvester 1852), making m_ii = 2 m_ij.
-    Returns None when the remaining block is zero (the matrix is singular).
+    At each step a remaining index with a nonzero diagonal entry is moved to the front (a
+    symmetric permutation, which keeps the inertia). When every remaining diagonal entry is zero
+    but some m_ij is not, row and column j are added to row and column i (a congruence, which
+    keeps the inertia, Sylvester 1852), making m_ii = 2 m_ij. moved says that the order or the
+    matrix changed at this step; a zero minor ends the sequence (the matrix is singular).
     """
-    m, _ = _integer_matrix(a)
-    n, prev, signs = len(m), 1, []
+    n, prev = len(m), 1
     for k in range(n):
         piv = next((i for i in range(k, n) if m[i][i] != 0), None)
+        moved = piv != k
         if piv is None:
             pair = next(((i, j) for i in range(k, n) for j in range(i + 1, n) if m[i][j]), None)
             if pair is None:
-                return None
+                yield 0, True
+                return
             i, j = pair
             for c in range(k, n):
                 m[i][c] += m[j][c]
@@ -68,8 +69,7 @@ def leading_minor_signs(a: Matrix) -> list[int] | None:
             for j in range(k + 1, n):
                 mi[j] = (mi[j] * pk - mik * m[k][j]) // prev
         prev = pk
-        signs.append(1 if pk > 0 else -1)
-    return signs
+        yield pk, moved
 
 
 def inertia(a: Matrix) -> tuple[int, int] | None:
@@ -78,26 +78,16 @@ def inertia(a: Matrix) -> tuple[int, int] | None:
     Sylvester's law of inertia: the LDL^T pivots d_k / d_{k-1} (ratios of leading minors) have the
     signs of the eigenvalue counts; a sign change between consecutive minors is a negative pivot.
     """
-    signs = leading_minor_signs(a)
-    if signs is None:
+    minors = [d for d, _ in _pivots(_integer_matrix(a)[0])]
+    if minors[-1] == 0:
         return None
-    negative = sum(1 for s, t in zip([1] + signs, signs) if s != t)
+    negative = sum(1 for s, t in zip([1] + minors, minors) if (s > 0) != (t > 0))
     return len(a) - negative, negative
 
 
-def _integer_positive_definite(m: list[list[int]]) -> bool:
-    """Return whether all leading principal minors of the integer matrix m are > 0 (Bareiss)."""
-    n, prev = len(m), 1
-    for k in range(n):
-        pk = m[k][k]
-        if pk <= 0:
-            return False
-        for i in range(k + 1, n):
-            mi, mik = m[i], m[i][k]
-            for j in range(k + 1, n):
-                mi[j] = (mi[j] * pk - mik * m[k][j]) // prev
-        prev = pk
-    return True
+def positive_definite(a: Matrix) -> bool:
+    """Return whether all leading principal minors are > 0 (Sylvester's criterion)."""
+    return all(d > 0 and not moved for d, moved in _pivots(_integer_matrix(a)[0]))
 
 
 def interval_positive_definite(lo: Matrix, hi: Matrix) -> bool:
@@ -115,7 +105,7 @@ def interval_positive_definite(lo: Matrix, hi: Matrix) -> bool:
     sigma = max(sum(hi[i][j] - lo[i][j] for i, j in row) for row in key)
     shifted = [[c - (sigma if i == j else 0) for j, c in enumerate(row)]
                for i, row in enumerate(centre)]
-    return _integer_positive_definite(_integer_matrix(shifted)[0])
+    return positive_definite(shifted)
 
 
 def charpoly(a: Matrix) -> Poly:

@@ -200,25 +200,3 @@ class Tape:
             self._seen[key] = len(self.slots) + len(self.code)
             self.code.append(key + (unparse(tree)[:60],))
         return self._seen[key]
-
-
-def parse_rational(text: str) -> Fraction:
-    """Return the exact value of '-3', '0.1', '1e-9' or '8/3' (a sign, then a number or p/q)."""
-    if not isinstance(text, str):
-        raise ExpressionError("expected a number written as text")
-    check_characters(text)
-    body = text.strip()
-    sign = -1 if body.startswith("-") else 1
-    body = body[1:].strip() if body[:1] in "+-" and body else body
-    if "/" in body:
-        num, _, den = body.partition("/")
-        q = parse_number(num.strip()) / _nonzero(parse_number(den.strip()), text)
-    else:
-        q = parse_number(body)
-    return sign * q
-
-
-def _nonzero(q: Fraction, text: str) -> Fraction:
-    if q == 0:
-        raise ExpressionError("division by zero in a number", text)
-    return q

@@ -6,7 +6,7 @@ from __future__ import annotations
 from rich.console import Console
 from rich.table import Table
 
-from ..check.certificate import rational_text as _q
+from ..model.numbers import rational_text as _q
 from ..model import Model
 from ..vocabulary import axis_word, plural, type_word
 from .decimal import bounds_text, interval_text, membership_text, value_text

@@ -8,7 +8,8 @@ from dataclasses import dataclass, field, replace
 from fractions import Fraction
 from pathlib import Path
 
-from ..check.expr import FUNCTIONS, ExpressionError, Tape, parse_expression, parse_rational
+from ..check.expr import FUNCTIONS, ExpressionError, Tape, parse_expression
+from .numbers import parse_rational
 from ..errors import InputError
 
 Interval = tuple[Fraction, Fraction]

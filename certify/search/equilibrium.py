@@ -17,19 +17,13 @@ import numpy as np
 from .. import __version__
 from ..check import exact
 from ..check.ad import evaluate
-from ..check.affine import branch_krawczyk
+from ..check import enclosure
 from ..check.arith import ArbArithmetic, DomainError
-from ..check.certificate import (
-    FORMAT,
-    VERSION,
-    CertificateRejected,
-    Problem,
-    Verified,
-    check,
-    check_inertia,
-    krawczyk_image,
-    rational_text,
-)
+from ..check.forms import branch_krawczyk
+from ..check.inertia import check_inertia
+from ..check.reader import FORMAT, VERSION, CertificateRejected, Problem, ZeroHint
+from ..check.verdict import Verified, check
+from ..model.numbers import rational_text
 from ..model import Interval, Model
 from ..model.symbolic import FloatSystem
 from .inertia import common_inertia_matrix, inertia_matrix, to_exact
@@ -249,14 +243,14 @@ def branch_enclosure(problem: Problem, system: FloatSystem, pbox: list[Interval]
     centre = [Fraction(float(v)) for v in x]
     tiny = Fraction(2) ** (-prec - 20)
     try:
-        image, _, _, _ = branch_krawczyk(problem, ar, pbox, centre, [(c, c) for c in centre],
-                                         sens, precond, slopes_exact)
+        image, _, _, _ = branch_krawczyk(problem, ar, pbox, ZeroHint(
+            centre, [(c, c) for c in centre], precond, sens, slopes_exact))
         radius = [max(abs(lo), abs(hi)) * 2 + abs(c) * Fraction(2) ** (-prec + 5) + tiny
                   for (lo, hi), c in zip(image, centre)]
         for _ in range(INFLATION_ROUNDS):
             box = [(c - r, c + r) for c, r in zip(centre, radius)]
-            image, e, jac, aff = branch_krawczyk(problem, ar, pbox, centre, box, sens, precond,
-                                                 slopes_exact)
+            image, e, jac, aff = branch_krawczyk(problem, ar, pbox, ZeroHint(
+                centre, box, precond, sens, slopes_exact))
             if all(e_lo < lo and hi < e_hi for (lo, hi), (e_lo, e_hi) in zip(image, e)):
                 break
             # E starts at twice the image at E = 0, so image > 1.5 E means the linear part
@@ -345,6 +339,12 @@ def _checked_branch_inertia(problem, ar, aff, jac, s_float, s_exact, improve=Tru
         except CertificateRejected as exc:
             reason = exc.reason
     raise Undecided("near-axis", f"hyperbolicity not proved over the branch ({reason})")
+
+
+def krawczyk_image(problem: Problem, ar, pbox, centre, box, precond) -> tuple[list, list]:
+    """Return K(X, P) (the checker's K - c shifted back by c) and J_g(X, P)."""
+    image, jac = enclosure.krawczyk_image(problem, ar, pbox, centre, box, precond)
+    return [ar.const(c) + k for c, k in zip(centre, image)], jac
 
 
 def _inflate(problem: Problem, ar, pbox, centre, precond):

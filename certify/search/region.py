@@ -18,14 +18,17 @@ import numpy as np
 
 from ..check.ad import evaluate
 from ..check.arith import ArbArithmetic, DomainError
-from ..check.certificate import (CertificateRejected, _check_krawczyk, check, krawczyk_image,
-                                 rational_text)
 from ..check import exact
-from ..check.region import _core, _hull, _inside_for_every_p, _spread
+from ..check.count import inside_for_every_p, widened
+from ..check.forms import check_enclosure, spreads
+from ..check.reader import CertificateRejected, ZeroHint, read_zero
+from ..check.verdict import check
+from ..model.numbers import rational_text
 from ..model import Interval, Model
 from ..model.symbolic import FloatSystem
 from .equilibrium import (Undecided, _inflate, branch_enclosure, certificate,
-                          certify_branch_piece, certify_piece, float_residual, problem_of)
+                          certify_branch_piece, certify_piece, float_residual, krawczyk_image,
+                          problem_of)
 from .inertia import to_exact
 
 DEFAULT_MAX_BOXES = 200_000
@@ -261,20 +264,21 @@ class _Scanner:
                 self.problem, self.system, self.pbox, x, 53)
         except Undecided:
             return None
-        spread = _spread(sens, self.pbox)
+        spread = spreads(sens, self.pbox, len(centre))
         # E must hold more than twice the travel for the core to hold the zero for every p.
         start = [max(hi - c, 3 * s) for (lo, hi), c, s in zip(box, centre, spread)]
         if not self._holds(centre, start, precond, (sens, slopes, spread)):
             return None
         box = [(c - r, c + r) for c, r in zip(centre, start)]
         box = self._grow(centre, box, precond, (sens, slopes, spread))  # hulls kept apart
-        form = (centre, [(lo - c, hi - c) for (lo, hi), c in zip(box, centre)], sens)
+        form = ZeroHint(centre, box, precond, sens, slopes)
         entry = {"centre": [_q(c) for c in centre],
                  "box": [[_q(lo), _q(hi)] for lo, hi in box],
                  "preconditioner": [[_q(v) for v in row] for row in precond],
                  "sensitivity": [[_q(v) for v in row] for row in sens],
                  "preconditioner_slopes": [[[_q(v) for v in row] for row in m] for m in slopes]}
-        zero = Zero(entry=entry, box=_hull(form, self.pbox), core=_core(form, self.pbox))
+        zero = Zero(entry=entry, box=widened(form, self.pbox, 1),
+                    core=widened(form, self.pbox, -1))
         try:
             piece = certify_branch_piece(self.problem, self.system, self.pbox, x, 53)
         except Undecided as exc:
@@ -341,9 +345,8 @@ class _Scanner:
         if any(self._meets(hull, z.box) for z in self.zeros):
             return False
         try:
-            with self.ar.active():
-                _check_krawczyk(self.problem, self.ar, self.pbox, centre, trial, precond, "zero",
-                                sens, slopes)
+            check_enclosure(self.problem, self.ar, self.pbox,
+                            ZeroHint(centre, trial, precond, sens, slopes), "zero")
         except CertificateRejected:
             return False
         return True
@@ -458,13 +461,9 @@ def scan(model: Model, region: dict[str, Interval] | None = None,
 
 def _fits(inner: dict, outer: dict, pbox: list[Interval]) -> bool:
     """Return whether the form inner lies in the form outer for every parameter (as checked)."""
-    def form(entry):
-        centre = [Fraction(c) for c in entry["centre"]]
-        errors = [(Fraction(lo) - c, Fraction(hi) - c) for (lo, hi), c in
-                  zip(entry["box"], centre)]
-        return centre, errors, [[Fraction(v) for v in row] for row in entry["sensitivity"]]
-
-    return _inside_for_every_p(form(inner), form(outer), pbox)
+    n, k = len(inner["centre"]), len(pbox)
+    return inside_for_every_p(read_zero(inner, n, k, "inner", optional={"inertia_matrix"}),
+                              read_zero(outer, n, k, "outer"), pbox)
 
 
 def _movement(scanner: _Scanner, pbox: list[Interval], region: list[Interval]) -> list[float]:

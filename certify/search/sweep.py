@@ -23,7 +23,8 @@ from fractions import Fraction
 import numpy as np
 
 from ..check import check
-from ..check.certificate import CertificateRejected, rational_text
+from ..check.reader import CertificateRejected
+from ..model.numbers import rational_text
 from ..model import Interval, Model
 from ..model.symbolic import FloatSystem
 
