@@ -1,6 +1,6 @@
 """certify: proved existence, uniqueness and hyperbolicity of equilibria of nonlinear models."""
 
-__version__ = "0.1.0"
+from .version import __version__
 
 from .api import EquilibriumResult, SweepResult, equilibrium, scan, sweep, verify
 from .check import CertificateRejected, Verified

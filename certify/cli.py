@@ -8,7 +8,7 @@ import sys
 from fractions import Fraction
 from pathlib import Path
 
-from . import __version__
+from .version import __version__
 from .errors import InputError
 
 CAUTION = ("A certificate is a statement about the mathematical model as written, at the stated "

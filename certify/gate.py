@@ -81,7 +81,7 @@ class Claim:
 def _params_text(params: dict) -> str:
     if not params:
         return ""
-    from .io.decimal import value_text
+    from .model.decimal import value_text
 
     return " at " + ", ".join(f"{k} = {value_text(lo, hi)}" for k, (lo, hi) in params.items())
 
@@ -293,7 +293,7 @@ def evaluate(claims: ClaimsFile, out: Path | None = None, arithmetics=("flint",)
 
 
 def _judge_equilibrium(c: Claim, r) -> Outcome:
-    from .io.decimal import membership_text
+    from .model.decimal import membership_text
 
     if r.verdict == "undecided":
         return Outcome(c, "undecided", f"undecided ({r.reason}): {r.message}")

@@ -15,7 +15,7 @@ from certify.check import CertificateRejected, check, load
 KERNEL = Path(__file__).resolve().parent.parent / "certify" / "check"
 ALLOWED = (set(sys.stdlib_module_names) | {"flint"}) - {"ctypes", "subprocess", "os", "pickle",
                                                       "marshal", "importlib", "socket"}
-LINE_BUDGET = 1600  # lines of code: not blank, not a comment, not a docstring (docstrings are
+LINE_BUDGET = 1560  # lines of code: not blank, not a comment, not a docstring (docstrings are
 # welcome and not counted); trim, do not grow
 
 

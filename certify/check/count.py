@@ -17,7 +17,7 @@ from .enclosure import bounds, krawczyk_image
 from .forms import check_enclosure, spreads
 from .inertia import check_inertia
 from .reader import (Box, Certificate, CertificateRejected, ZeroHint, integer, interval, items,
-                     keys, matrix, rational, read_zero, vector)
+                     keys, matrix, rational, read_zero, reject_if, vector)
 from .tiling import check_tiling, piece_parameters
 
 MAX_NODES = 2_000_000
@@ -83,17 +83,15 @@ def _check_zeros(cert: Certificate, ar, pbox: Box, zeros, b: Box, where: str):
                               {"stable_dimension"}, inertia=True)
             enclosure, jac, inertia_ar = check_enclosure(cert.problem, ar, pbox, tight,
                                                          f"{at}.classification")
-            if not inside_for_every_p(tight, hint, pbox):
-                raise CertificateRejected("count", f"{at}.classification.box",
-                                          "found a box reaching outside the uniqueness box")
+            reject_if(not inside_for_every_p(tight, hint, pbox), "count",
+                      f"{at}.classification.box", "found a box reaching outside the uniqueness box")
             stable = tight.stable_dimension
             check_inertia(cert.problem, inertia_ar, jac, tight.inertia_matrix, stable,
                           f"{at}.classification")
         inside = all(lo <= e_lo and e_hi <= hi for (lo, hi), (e_lo, e_hi) in zip(b, enclosure))
         outside = any(e_hi < lo or hi < e_lo for (lo, hi), (e_lo, e_hi) in zip(b, enclosure))
-        if not (inside or outside):
-            raise CertificateRejected("on-boundary", at, "found a zero whose enclosure "
-                                      "crosses the border of the region")
+        reject_if(not (inside or outside), "on-boundary", at,
+                  "found a zero whose enclosure crosses the border of the region")
         hull = widened(hint, pbox, 1)
         for m, other in enumerate(hulls):
             if all(o_lo <= hi and lo <= o_hi for (lo, hi), (o_lo, o_hi) in zip(hull, other)):

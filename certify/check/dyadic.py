@@ -10,9 +10,9 @@ it is used. Nothing here depends on python-flint: the two arithmetics are indepe
 
 from __future__ import annotations
 
+import math
 from contextlib import contextmanager
 from fractions import Fraction
-import math
 from math import isqrt
 from typing import Iterator
 

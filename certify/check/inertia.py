@@ -13,7 +13,7 @@ from fractions import Fraction
 
 from . import exact
 from .arith import BudgetError, DomainError
-from .reader import CertificateRejected, Matrix, Problem
+from .reader import CertificateRejected, Matrix, Problem, reject_if
 
 
 def lyapunov_matrix(problem: Problem, ar, jac: list, s: Matrix) -> list:
@@ -46,9 +46,8 @@ def check_inertia(problem: Problem, ar, jac: list, s: Matrix, stable: int, where
     """Refuse unless S is symmetric, M is definite over J(X, P), and S has `stable` positive
     eigenvalues."""
     n = len(s)
-    if any(s[i][j] != s[j][i] for i in range(n) for j in range(i)):
-        raise CertificateRejected("inertia", f"{where}.inertia_matrix", "found a matrix that "
-                                  "is not symmetric")
+    reject_if(any(s[i][j] != s[j][i] for i in range(n) for j in range(i)), "inertia",
+              f"{where}.inertia_matrix", "found a matrix that is not symmetric")
     try:
         with ar.active():
             m = lyapunov_matrix(problem, ar, jac, s)

@@ -7,7 +7,7 @@ from fractions import Fraction
 from . import exact
 from .ad import exact_size_bound
 from .arith import BudgetError, DomainError, ExactArithmetic
-from .reader import Certificate, CertificateRejected, keys, vector
+from .reader import Certificate, CertificateRejected, keys, reject_if, vector
 
 MAX_EXACT_BITS = 65_536  # any number of an exact evaluation
 
@@ -22,9 +22,8 @@ def check_not_hyperbolic(cert: Certificate) -> tuple[list[Fraction], str]:
     keys(cert.claim, {"verdict", "point"}, "claim", {"eigenvalue"})
     point = vector(cert.claim["point"], len(cert.variables), "claim.point")
     for p, (lo, hi) in problem.pbox.items():
-        if lo != hi:
-            raise CertificateRejected("not-exact", f"model.parameters.{p}", "found an interval, "
-                                      "expected an exact value")
+        reject_if(lo != hi, "not-exact", f"model.parameters.{p}",
+                  "found an interval, expected an exact value")
     params = [problem.pbox[p][0] for p in problem.params]
     if exact_size_bound(problem.tape, point, params, problem.period,
                         MAX_EXACT_BITS) > MAX_EXACT_BITS:
@@ -34,9 +33,8 @@ def check_not_hyperbolic(cert: Certificate) -> tuple[list[Fraction], str]:
         residual, jac = problem.residual(ExactArithmetic(), point, params)
     except DomainError as exc:
         raise CertificateRejected("not-exact", "claim.point", str(exc)) from None
-    if any(r != 0 for r in residual):
-        raise CertificateRejected("not-zero", "claim.point", "found f(point) != 0, "
-                                  "expected an exact equilibrium")
+    reject_if(any(r != 0 for r in residual), "not-zero", "claim.point",
+              "found f(point) != 0, expected an exact equilibrium")
     try:
         poly = exact.charpoly(jac)
     except BudgetError as exc:

@@ -42,6 +42,15 @@ class CertificateRejected(Exception):
         super().__init__(f"{code} at {where}: {reason}")
 
 
+def reject_if(failed: bool, code: str, where: str, reason: str, *args) -> None:
+    """Raise CertificateRejected(code, where, reason.format(*args)) when failed is true.
+
+    The reason is formatted only on failure, so a check inside a loop costs its comparison only.
+    """
+    if failed:
+        raise CertificateRejected(code, where, reason.format(*args))
+
+
 def _unique_keys(pairs: list[tuple[str, object]]) -> dict:
     """Return the JSON object of the pairs, refusing a key written twice."""
     data = dict(pairs)
@@ -53,8 +62,7 @@ def _unique_keys(pairs: list[tuple[str, object]]) -> dict:
 
 def load(text: str | bytes) -> dict:
     """Return the parsed JSON object of a certificate, refusing oversized or deep files."""
-    if len(text) > MAX_BYTES:
-        raise CertificateRejected("malformed", "file", f"larger than {MAX_BYTES} bytes")
+    reject_if(len(text) > MAX_BYTES, "malformed", "file", "larger than {} bytes", MAX_BYTES)
     try:
         data = json.loads(text, object_pairs_hook=_unique_keys)
     except (ValueError, RecursionError) as exc:
@@ -69,15 +77,13 @@ def load(text: str | bytes) -> dict:
 
 def rational(v, where: str) -> Fraction:
     """Return the exact rational written as "p", "-p" or "p/q"."""
-    if isinstance(v, bool) or not isinstance(v, (str, int)):
-        raise CertificateRejected("malformed", where, f"found {type(v).__name__}, "
-                                  "expected an exact number as a string \"p\" or \"p/q\"")
+    reject_if(isinstance(v, bool) or not isinstance(v, (str, int)), "malformed", where,
+              'found {}, expected an exact number as a string "p" or "p/q"', type(v).__name__)
     text = str(v)
     if len(text) > MAX_NUMBER_CHARS or not _RATIONAL.match(text):
         raise CertificateRejected("malformed", where, f"found {text[:30]!r}, expected \"p/q\"")
     num, _, den = text.partition("/")
-    if den and int(den) == 0:
-        raise CertificateRejected("malformed", where, "zero denominator")
+    reject_if(den and int(den) == 0, "malformed", where, "zero denominator")
     return Fraction(int(num), int(den or 1))
 
 
@@ -110,8 +116,7 @@ def vector(v, n: int, where: str) -> list[Fraction]:
 def interval(v, where: str) -> Bounds:
     """Return [lo, hi] with lo <= hi."""
     lo, hi = vector(v, 2, where)
-    if lo > hi:
-        raise CertificateRejected("malformed", where, f"found [{lo}, {hi}], an empty interval")
+    reject_if(lo > hi, "malformed", where, "found [{}, {}], an empty interval", lo, hi)
     return lo, hi
 
 
@@ -128,9 +133,8 @@ def matrix(v, rows: int, where: str, columns: int | None = None) -> Matrix:
 
 def integer(v, lo: int, hi: int, where: str) -> int:
     """Return v, a JSON integer in [lo, hi]."""
-    if isinstance(v, bool) or not isinstance(v, int) or not lo <= v <= hi:
-        raise CertificateRejected("malformed", where, f"found {v!r}, expected an integer "
-                                  f"in [{lo}, {hi}]")
+    reject_if(isinstance(v, bool) or not isinstance(v, int) or (not lo <= v <= hi), "malformed",
+              where, "found {!r}, expected an integer in [{}, {}]", v, lo, hi)
     return v
 
 
@@ -211,15 +215,13 @@ def read_certificate(data: dict) -> Certificate:
             raise CertificateRejected("version", key, f"found {data[key]!r}, expected {want!r}")
     problem, variables = _read_model(data["model"])
     period = integer(data.get("period", 1), 1, 64, "period")
-    if problem.kind == "flow" and period != 1:
-        raise CertificateRejected("malformed", "period", "a flow has no period")
+    reject_if(problem.kind == "flow" and period != 1, "malformed", "period", "a flow has no period")
     problem.period = period
     precision = integer(data["precision"], 30, MAX_PRECISION, "precision")
     _check_budget(problem.tape, len(variables), period, precision)
     claim = data["claim"]
-    if not isinstance(claim, dict) or claim.get("verdict") not in VERDICTS:
-        raise CertificateRejected("malformed", "claim.verdict",
-                                  "expected \"hyperbolic\", \"not hyperbolic\" or \"count\"")
+    reject_if(not isinstance(claim, dict) or claim.get("verdict") not in VERDICTS, "malformed",
+              "claim.verdict", 'expected "hyperbolic", "not hyperbolic" or "count"')
     wanted = {"hyperbolic": {"pieces"}, "not hyperbolic": set(), "count": {"pieces", "region"}}
     extra = {"pieces", "region"} & data.keys() - wanted[claim["verdict"]]
     if extra:
@@ -235,9 +237,8 @@ def _read_model(model) -> tuple[Problem, list[str]]:
         raise CertificateRejected("malformed", "model.kind", f"found {model['kind']!r}")
     variables = items(model["variables"], None, "model.variables")
     n = len(variables)
-    if not 1 <= n <= MAX_DIMENSION or len(set(map(str, variables))) != n:
-        raise CertificateRejected("malformed", "model.variables", "expected 1 to "
-                                  f"{MAX_DIMENSION} distinct names")
+    reject_if(not 1 <= n <= MAX_DIMENSION or len(set(map(str, variables))) != n, "malformed",
+              "model.variables", "expected 1 to {} distinct names", MAX_DIMENSION)
     params = model["parameters"]
     if not isinstance(params, dict) or len(params) > 10 * MAX_DIMENSION:
         raise CertificateRejected("malformed", "model.parameters", "expected an object")
@@ -245,9 +246,8 @@ def _read_model(model) -> tuple[Problem, list[str]]:
     for name in names:
         if not isinstance(name, str) or not _NAME.match(name):
             raise CertificateRejected("malformed", "model", f"found name {name!r}")
-    if len(set(names)) != len(names):
-        raise CertificateRejected("model", "model.parameters", "a name is both a variable "
-                                  "and a parameter")
+    reject_if(len(set(names)) != len(names), "model", "model.parameters",
+              "a name is both a variable and a parameter")
     pbox = {p: interval(v, f"model.parameters.{p}") for p, v in params.items()}
     equations = keys(model["equations"], set(variables), "model.equations")
     trees = []
@@ -266,10 +266,9 @@ def _check_budget(tape: Tape, n: int, period: int, prec: int) -> None:
         raise CertificateRejected("budget", "precision", f"found {n} variables at {prec} bits, "
                                   f"expected n x precision <= {MAX_PRECISION_WORK}")
     calls = sum(1 if op == "call" else 2 for op, *_ in tape.code if op in ("call", "pow"))
-    if calls * period * prec**2 > MAX_FUNCTION_WORK:
-        raise CertificateRejected("budget", "precision", f"found {calls} function calls x "
-                                  f"period {period} x {prec}^2 bits, expected at most "
-                                  f"{MAX_FUNCTION_WORK}")
+    reject_if(calls * period * prec ** 2 > MAX_FUNCTION_WORK, "budget", "precision",
+              "found {} function calls x period {} x {}^2 bits, expected at most {}", calls, period,
+              prec, MAX_FUNCTION_WORK)
 
 
 def read_zero(v, n: int, k: int, where: str, required=frozenset(), optional=frozenset(),
@@ -283,9 +282,8 @@ def read_zero(v, n: int, k: int, where: str, required=frozenset(), optional=froz
     keys(v, base | set(required), where, BRANCH_KEYS | set(optional))
     slopes = sens = None
     if "preconditioner_slopes" in v:
-        if "sensitivity" not in v:
-            raise CertificateRejected("malformed", f"{where}.preconditioner_slopes",
-                                      "found slopes without a sensitivity")
+        reject_if("sensitivity" not in v, "malformed", f"{where}.preconditioner_slopes",
+                  "found slopes without a sensitivity")
         slopes = [matrix(m, n, f"{where}.preconditioner_slopes[{a}]") for a, m in
                   enumerate(items(v["preconditioner_slopes"], k, f"{where}.preconditioner_slopes"))]
     if "sensitivity" in v:

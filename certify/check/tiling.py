@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from fractions import Fraction
 
-from .reader import Box, CertificateRejected, Problem, interval, keys
+from .reader import Box, CertificateRejected, Problem, interval, keys, reject_if
 
 
 def piece_parameters(problem: Problem, piece: dict, where: str) -> Box:
@@ -12,9 +12,8 @@ def piece_parameters(problem: Problem, piece: dict, where: str) -> Box:
     pp = keys(piece["parameters"], set(problem.params), f"{where}.parameters")
     box = [interval(pp[p], f"{where}.parameters.{p}") for p in problem.params]
     for p, (lo, hi) in zip(problem.params, box):
-        if lo < problem.pbox[p][0] or hi > problem.pbox[p][1]:
-            raise CertificateRejected("tiling", f"{where}.parameters.{p}",
-                                      "found a piece reaching outside the parameter box")
+        reject_if(lo < problem.pbox[p][0] or hi > problem.pbox[p][1], "tiling",
+                  f"{where}.parameters.{p}", "found a piece reaching outside the parameter box")
     return box
 
 
@@ -28,9 +27,8 @@ def check_tiling(outer: Box, boxes: list[Box]) -> None:
     wide = [k for k, (lo, hi) in enumerate(outer) if hi > lo]
     for i, b in enumerate(boxes):
         for k, (lo, hi) in enumerate(outer):
-            if k not in wide and b[k] != (lo, hi):
-                raise CertificateRejected("tiling", f"pieces[{i}].parameters", "found a point "
-                                          "parameter that differs from the model's")
+            reject_if(k not in wide and b[k] != (lo, hi), "tiling", f"pieces[{i}].parameters",
+                      "found a point parameter that differs from the model's")
     if not wide:
         return
 
@@ -40,9 +38,8 @@ def check_tiling(outer: Box, boxes: list[Box]) -> None:
             v *= b[k][1] - b[k][0]
         return v
 
-    if sum(volume(b) for b in boxes) != volume(outer):
-        raise CertificateRejected("tiling", "pieces", "found pieces whose volumes do not add "
-                                  "up to the parameter box")
+    reject_if(sum(volume(b) for b in boxes) != volume(outer), "tiling", "pieces",
+              "found pieces whose volumes do not add up to the parameter box")
     order = sorted(range(len(boxes)), key=lambda i: boxes[i][wide[0]][0])
     for a_pos, a in enumerate(order):
         a_hi = boxes[a][wide[0]][1]

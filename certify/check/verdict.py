@@ -16,7 +16,7 @@ from .forms import check_enclosure
 from .inertia import check_inertia
 from .nonhyperbolic import check_not_hyperbolic
 from .reader import (MAX_PIECES, Bounds, Box, Certificate, CertificateRejected, integer, items,
-                     keys, read_certificate, read_zero)
+                     keys, read_certificate, read_zero, reject_if)
 from .tiling import check_tiling, piece_parameters
 
 
@@ -37,15 +37,22 @@ def make_arithmetic(name: str, prec: int):
     """Return the interval arithmetic called name ("flint" or "python") at prec bits."""
     if name == "flint":
         return ArbArithmetic(prec)
-    if name == "python":
-        from .dyadic import DyadicArithmetic
+    from .dyadic import DyadicArithmetic
 
-        return DyadicArithmetic(prec)
-    raise CertificateRejected("malformed", "arithmetic", f"unknown arithmetic {name!r}")
+    return DyadicArithmetic(prec)
 
 
 def check(data: dict, arithmetic: str = "flint") -> Verified:
-    """Return what the certificate proves, or raise CertificateRejected."""
+    """Return what the certificate proves, or raise CertificateRejected.
+
+    arithmetic: "flint" (python-flint balls), "python" (standard-library dyadic intervals) or
+    "both": then the file is accepted only if each arithmetic accepts it.
+    """
+    if arithmetic == "both":
+        check(data, "flint")
+        return check(data, "python")
+    if arithmetic not in ("flint", "python"):
+        raise CertificateRejected("malformed", "arithmetic", f"unknown arithmetic {arithmetic!r}")
     cert = read_certificate(data)
     problem, verdict = cert.problem, cert.claim["verdict"]
 
@@ -73,9 +80,8 @@ def _check_hyperbolic(cert: Certificate, ar) -> tuple[int, list[Box]]:
     keys(cert.claim, {"verdict", "stable_dimension", "unstable_dimension"}, "claim")
     stable = integer(cert.claim["stable_dimension"], 0, n, "claim.stable_dimension")
     unstable = integer(cert.claim["unstable_dimension"], 0, n, "claim.unstable_dimension")
-    if stable + unstable != n:
-        raise CertificateRejected("inertia", "claim", f"found {stable} + {unstable} "
-                                  f"dimensions, expected a total of {n}")
+    reject_if(stable + unstable != n, "inertia", "claim",
+              "found {} + {} dimensions, expected a total of {}", stable, unstable, n)
     pieces = items(cert.data.get("pieces"), None, "pieces")
     if not 1 <= len(pieces) <= MAX_PIECES:
         raise CertificateRejected("malformed", "pieces", f"expected 1 to {MAX_PIECES} pieces")

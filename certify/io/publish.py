@@ -15,7 +15,7 @@ from fractions import Fraction
 from pathlib import Path
 
 from ..errors import InputError
-from .decimal import bounds_text, honest_digits, value_text
+from ..model.decimal import bounds_text, honest_digits, value_text
 
 CAUTIONS = [
     "What a certificate proves: a statement about the mathematical model exactly as written in "
@@ -105,10 +105,9 @@ def _params(parameters: dict) -> str:
 
 
 def _certificate_row(path: Path, data: bytes, arithmetic: str) -> Row:
-    from ..api import verify
-    from ..check import load
+    from ..check import check, load
 
-    verified = verify(load(data), arithmetic)
+    verified = check(load(data), arithmetic)
     doc = json.loads(data)
     c = verified.claim
     row = Row(source=str(path), model=doc["model"]["name"],

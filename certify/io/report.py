@@ -9,7 +9,7 @@ from rich.table import Table
 from ..model.numbers import rational_text as _q
 from ..model import Model
 from ..vocabulary import axis_word, plural, type_word
-from .decimal import bounds_text, interval_text, membership_text, value_text
+from ..model.decimal import bounds_text, interval_text, membership_text, value_text
 
 
 def _console() -> Console:

@@ -14,7 +14,7 @@ from fractions import Fraction
 
 import numpy as np
 
-from .. import __version__
+from ..version import __version__
 from ..check import exact
 from ..check.ad import evaluate
 from ..check import enclosure

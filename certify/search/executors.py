@@ -15,7 +15,7 @@ import multiprocessing
 import time
 from dataclasses import dataclass, field
 
-from ..io.decimal import bounds_text, honest_digits
+from ..model.decimal import bounds_text, honest_digits
 from ..vocabulary import type_word
 from .sweep import Job, Task, block_box, cells_of, child_tasks, interval_json, n_cells, \
     needs_split, run_block
