@@ -10,7 +10,9 @@ from pathlib import Path
 from .check import CertificateRejected, Verified, check, load
 from .errors import InputError
 from .model import Interval, Model, load_model
-from .search.settings import DEFAULT_MAX_PRECISION, DEFAULT_PRECISION
+from .settings import (DEFAULT_MAX_PRECISION, DEFAULT_PRECISION, MAX_CELLS, MAX_PERIOD,
+                       MAX_PRECISION, MAX_REFINE, MIN_PRECISION, SCAN_MAX_BOXES, SCAN_TIME_LIMIT,
+                       SWEEP_MAX_BOXES)
 from .vocabulary import type_word
 
 
@@ -60,14 +62,38 @@ def equilibrium(model: Model | str | Path, guesses: list[dict[str, float]] | Non
     """
     from .search.equilibrium import certify_guess  # numpy, scipy, sympy: only when searching
 
+    model = _prepared(model, parameters)
+    _check_run(model, period, precision, max_precision)
+    guesses = _checked_guesses(model, guesses)
+    results = [_result(model, certify_guess(model, g, period, precision, max_precision,
+                                            arithmetics=arithmetics, first_order=first_order),
+                       period) for g in guesses]
+    _mark_repeats(results)
+    return results
+
+
+def _prepared(model: Model | str | Path, parameters: dict[str, Interval] | None) -> Model:
+    """Return the model (read from its file when given a path) with the parameters set."""
     if not isinstance(model, Model):
         model = load_model(model)
-    if parameters:
-        model = model.with_parameters(parameters)
+    return model.with_parameters(parameters) if parameters else model
+
+
+def _check_run(model: Model, period: int, precision: int = DEFAULT_PRECISION,
+               max_precision: int = DEFAULT_MAX_PRECISION) -> None:
+    """Refuse a period or precision that the searches of equilibrium and sweep cannot use."""
     if period != 1 and model.kind != "map":
         raise InputError("--period is for maps only (kind = \"map\")", model.source, "--period")
-    if not 1 <= period <= 64:
-        raise InputError("the period must be between 1 and 64", model.source, "--period")
+    if not 1 <= period <= MAX_PERIOD:
+        raise InputError(f"the period must be between 1 and {MAX_PERIOD}", model.source,
+                         "--period")
+    if not (MIN_PRECISION <= precision <= MAX_PRECISION and max_precision <= MAX_PRECISION):
+        raise InputError(f"precision must be between {MIN_PRECISION} and {MAX_PRECISION} bits",
+                         model.source, "--precision")
+
+
+def _checked_guesses(model: Model, guesses: list[dict[str, float]] | None) -> list[dict]:
+    """Return the guesses (given, or the model's), each with a value for every variable only."""
     guesses = list(guesses or model.guesses)
     if not guesses:
         raise InputError("no starting point: give --guess or [[guesses]] in the model",
@@ -79,11 +105,7 @@ def equilibrium(model: Model | str | Path, guesses: list[dict[str, float]] | Non
             what = f"no value for {', '.join(missing)}" if missing else \
                 f"'{extra[0]}' is not a variable"
             raise InputError(what, model.source, "--guess")
-    results = [_result(model, certify_guess(model, g, period, precision, max_precision,
-                                            arithmetics=arithmetics, first_order=first_order),
-                       period) for g in guesses]
-    _mark_repeats(results)
-    return results
+    return guesses
 
 
 def _mark_repeats(results: list[EquilibriumResult]) -> None:
@@ -155,16 +177,14 @@ def _eigenvalues(model: Model, cert: dict, period: int) -> list[dict]:
 
 
 def scan(model: Model | str | Path, region: dict[str, Interval] | None = None,
-         parameters: dict[str, Interval] | None = None, max_boxes: int = 200_000,
-         time_limit: float = 120.0, progress=None, arithmetics: tuple[str, ...] = ("flint",)):
+         parameters: dict[str, Interval] | None = None, max_boxes: int = SCAN_MAX_BOXES,
+         time_limit: float = SCAN_TIME_LIMIT, progress=None,
+         arithmetics: tuple[str, ...] = ("flint",)):
     """Return the certified number of equilibria in a region (a ScanResult), for every
     parameter in the model's (or the given) parameter box; count is None when not certified."""
     from .search.region import scan as run_scan
 
-    if not isinstance(model, Model):
-        model = load_model(model)
-    if parameters:
-        model = model.with_parameters(parameters)
+    model = _prepared(model, parameters)
     region = _exact_region(model, region)
     return run_scan(model, region, max_boxes, time_limit, progress, arithmetics)
 
@@ -243,7 +263,7 @@ class SweepResult:
 
 def _grid_axes(model: Model, grid) -> tuple:
     from .model import parse_value
-    from .search.sweep import MAX_CELLS, Axis
+    from .search.sweep import Axis
 
     if not grid:
         raise InputError("a sweep needs at least one grid parameter", model.source, "--grid")
@@ -291,7 +311,7 @@ def sweep(model: Model | str | Path, grid: dict, guesses: list[dict[str, float]]
           scan: bool = False, region: dict[str, Interval] | None = None,
           parameters: dict[str, Interval] | None = None, refine: int = 0, period: int = 1,
           workers: int | None = None, scheduler: str | None = None,
-          out: str | Path | None = None, resume: bool = False, max_boxes: int = 2_000,
+          out: str | Path | None = None, resume: bool = False, max_boxes: int = SWEEP_MAX_BOXES,
           progress=None) -> SweepResult:
     """Certify every cell of a parameter grid; return the results (also in out/results.jsonl).
 
@@ -311,29 +331,15 @@ def sweep(model: Model | str | Path, grid: dict, guesses: list[dict[str, float]]
     from .search.sweep import Job
 
     source = model
-    if not isinstance(model, Model):
-        model = load_model(model)
-    if parameters:
-        model = model.with_parameters(parameters)
+    model = _prepared(model, parameters)
     axes = _grid_axes(model, grid)
-    if period != 1 and model.kind != "map":
-        raise InputError("--period is for maps only (kind = \"map\")", model.source, "--period")
-    if not 0 <= refine <= 8:
-        raise InputError("--refine must be between 0 and 8", model.source, "--refine")
-    if scan:
-        box = list(_exact_region(model, region).values())
-        starts = ()
-    else:
-        box = ()
-        chosen = list(guesses or model.guesses)
-        if not chosen:
-            raise InputError("no starting point: give --guess or [[guesses]] in the model",
-                             model.source, "guesses")
-        for g in chosen:
-            missing = [v for v in model.variables if v not in g]
-            if missing:
-                raise InputError(f"no value for {', '.join(missing)}", model.source, "--guess")
-        starts = tuple(tuple(float(g[v]) for v in model.variables) for g in chosen)
+    _check_run(model, period)
+    if not 0 <= refine <= MAX_REFINE:
+        raise InputError(f"--refine must be between 0 and {MAX_REFINE}", model.source,
+                         "--refine")
+    box = list(_exact_region(model, region).values()) if scan else ()
+    starts = () if scan else tuple(tuple(float(g[v]) for v in model.variables)
+                                   for g in _checked_guesses(model, guesses))
     job = Job(model=model, axes=axes, mode="scan" if scan else "guess", guesses=starts,
               region=tuple(box), period=period, refine=refine, max_boxes=max_boxes)
     arguments = {"grid": [a.text() for a in axes], "mode": job.mode,

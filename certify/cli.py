@@ -8,6 +8,8 @@ import sys
 from fractions import Fraction
 from pathlib import Path
 
+from .settings import (DEFAULT_MAX_PRECISION, DEFAULT_PRECISION, SCAN_MAX_BOXES, SCAN_TIME_LIMIT,
+                       SWEEP_MAX_BOXES)
 from .version import __version__
 from .errors import InputError
 
@@ -58,10 +60,11 @@ def _parser() -> argparse.ArgumentParser:
                         "[[guesses]])")
     q.add_argument("--period", type=int, default=1, metavar="K",
                    help="maps only: certify points of period K (fixed points of g^K)")
-    q.add_argument("--precision", type=int, default=53, metavar="BITS",
-                   help="starting working precision in bits (default 53)")
-    q.add_argument("--max-precision", type=int, default=424, metavar="BITS",
-                   help="highest precision tried before answering undecided (default 424)")
+    q.add_argument("--precision", type=int, default=DEFAULT_PRECISION, metavar="BITS",
+                   help=f"starting working precision in bits (default {DEFAULT_PRECISION})")
+    q.add_argument("--max-precision", type=int, default=DEFAULT_MAX_PRECISION, metavar="BITS",
+                   help="highest precision tried before answering undecided (default "
+                        f"{DEFAULT_MAX_PRECISION})")
     q.add_argument("--out", metavar="CERT.json",
                    help="write the certificate here (several results: CERT-1.json, ...)")
 
@@ -70,10 +73,11 @@ def _parser() -> argparse.ArgumentParser:
     model_options(q)
     q.add_argument("--region", metavar="u=0..4,v=0..4",
                    help="the search box (default: the model's [region])")
-    q.add_argument("--max-boxes", type=int, default=200_000, metavar="N",
-                   help="stop after N boxes (default 200000); the count is then not certified")
-    q.add_argument("--time-limit", type=float, default=120.0, metavar="SECONDS",
-                   help="stop after this many seconds (default 120)")
+    q.add_argument("--max-boxes", type=int, default=SCAN_MAX_BOXES, metavar="N",
+                   help=f"stop after N boxes (default {SCAN_MAX_BOXES}); the count is then not "
+                        "certified")
+    q.add_argument("--time-limit", type=float, default=SCAN_TIME_LIMIT, metavar="SECONDS",
+                   help=f"stop after this many seconds (default {SCAN_TIME_LIMIT:g})")
     q.add_argument("--out", metavar="CERT.json", help="write the certificate of the count here")
 
     q = sub.add_parser("sweep", help="certify every cell of a parameter grid (each cell a box)",
@@ -89,9 +93,9 @@ def _parser() -> argparse.ArgumentParser:
                       help="certify the number of equilibria in the region in every cell")
     q.add_argument("--region", metavar="u=0..4,v=0..4",
                    help="with --scan: the search box (default: the model's [region])")
-    q.add_argument("--max-boxes", type=int, default=2_000, metavar="N",
-                   help="with --scan: box budget of each proof (default 2000); a block "
-                        "over budget is cut")
+    q.add_argument("--max-boxes", type=int, default=SWEEP_MAX_BOXES, metavar="N",
+                   help=f"with --scan: box budget of each proof (default {SWEEP_MAX_BOXES}); "
+                        "a block over budget is cut")
     q.add_argument("--period", type=int, default=1, metavar="K",
                    help="maps only: certify points of period K")
     q.add_argument("--refine", type=int, default=0, metavar="DEPTH",
@@ -219,8 +223,6 @@ def _equilibrium(args) -> int:
 
     model = _load(args)
     guesses = [parse_guess(g) for g in args.guess] or None
-    if args.precision < 30 or args.max_precision > 100_000:
-        raise InputError("precision must be between 30 and 100000 bits", None, "--precision")
     if args.out:
         writable_file(args.out, "--out")
     results = equilibrium(model, guesses, period=args.period, precision=args.precision,

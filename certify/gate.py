@@ -34,6 +34,7 @@ from fractions import Fraction
 from pathlib import Path
 
 from .errors import InputError
+from .settings import MAX_PERIOD
 
 FORMAT = "certify-gate"
 EXPECT = ("equilibrium", "count", "none")
@@ -102,19 +103,13 @@ def load_claims(path: str | Path, models_anywhere: bool = False) -> ClaimsFile:
     The model must lie in the claims file's folder or below it, unless models_anywhere: a
     claims file from elsewhere cannot make the tool read (and report on) any file it likes.
     """
-    from .model.model import _line_of, parse_toml, parse_value, read_text
+    from .model.model import parse_toml, read_text
 
     p = Path(path)
-    src = str(path)
     text = read_text(p)
-    data = parse_toml(text, src)
-
-    def fail(reason, key=None, index=None):
-        line = _line_of(text, "claim" if index is not None else None, key or "", index or 0) \
-            if key else None
-        where = f"claim[{index}].{key}" if index is not None and key else key
-        raise InputError(reason, src, where, line)
-
+    reader = _ClaimReader(text, str(path))
+    data = parse_toml(text, str(path))
+    fail = reader.fail
     unknown = [k for k in data if k not in ("model", "claim", "title")]
     if unknown:
         fail(f"unknown key '{unknown[0]}' (expected model, title, [[claim]])", unknown[0])
@@ -132,104 +127,137 @@ def load_claims(path: str | Path, models_anywhere: bool = False) -> ClaimsFile:
         fail("no claims: add [[claim]] tables", "claim")
     claims, names = [], set()
     for i, c in enumerate(raw):
-        if not isinstance(c, dict):
-            fail("a claim is a table", "claim")
-        bad = [k for k in c if k not in KEYS]
-        if bad:
-            fail(f"unknown key '{bad[0]}'", bad[0], i)
-        name = c.get("name")
-        if not isinstance(name, str) or not name.strip():
-            fail("every claim needs a name (a non-empty string)", "name" if "name" in c
-                 else "expect", i)
-        if name in names:
-            fail(f"the name {name!r} is used twice", "name", i)
-        names.add(name)
-        expect = c.get("expect")
-        if expect not in EXPECT:
-            fail(f"expected one of {', '.join(EXPECT)}, found {expect!r}", "expect", i)
-        line = _line_of(text, "claim", "name", i)
-        claim = Claim(name=name, expect=expect, line=line)
-
-        def values(key, kind):
-            v = c.get(key)
-            if not isinstance(v, dict) or not v:
-                fail(f"expected a table of {kind}", key, i)
-            return v
-
-        if "parameters" in c:
-            for k, v in values("parameters", "parameter values").items():
-                if isinstance(v, dict):
-                    fail(f"parameter {k}: expected a number or [lo, hi]", "parameters", i)
-                claim.parameters[k] = parse_value(v, src, f"claim[{i}].parameters.{k}",
-                                                  _line_of(text, "claim", "parameters", i))
-        if "region" in c:
-            claim.region = {}
-            for k, v in values("region", "variable ranges").items():
-                lo, hi = parse_value(v, src, f"claim[{i}].region.{k}",
-                                     _line_of(text, "claim", "region", i))
-                if lo >= hi:
-                    fail(f"the side for '{k}' is empty or has width 0", "region", i)
-                claim.region[k] = (lo, hi)
-        if "period" in c:
-            if isinstance(c["period"], bool) or not isinstance(c["period"], int) or \
-                    not 1 <= c["period"] <= 64:
-                fail("the period is an integer from 1 to 64", "period", i)
-            claim.period = c["period"]
-        if expect == "equilibrium":
-            near = values("near", "variable values")
-            claim.near = {}
-            for k, v in near.items():
-                try:
-                    claim.near[k] = float(v) if not isinstance(v, bool) else None
-                except (TypeError, ValueError):
-                    claim.near[k] = None
-                if claim.near[k] is None:
-                    fail(f"near.{k}: expected a number", "near", i)
-            if "within" in c:
-                w, w2 = parse_value(c["within"], src, f"claim[{i}].within",
-                                    _line_of(text, "claim", "within", i))
-                if w != w2 or w <= 0:
-                    fail("within is one positive number", "within", i)
-                claim.within = w
-            if "type" in c:
-                if c["type"] not in ("sink", "source", "saddle", "attracting", "repelling"):
-                    fail(f"unknown type {c['type']!r} (sink, source, saddle; for maps "
-                         "attracting, repelling, saddle)", "type", i)
-                claim.type = c["type"]
-            if "unstable_dimension" in c:
-                d = c["unstable_dimension"]
-                if isinstance(d, bool) or not isinstance(d, int) or d < 0:
-                    fail("expected a non-negative integer", "unstable_dimension", i)
-                claim.unstable_dimension = d
-            for k in ("count", "unstable_dimensions"):
-                if k in c:
-                    fail(f"'{k}' belongs to expect = \"count\"", k, i)
-        else:
-            for k in ("near", "within", "type", "unstable_dimension"):
-                if k in c:
-                    fail(f"'{k}' belongs to expect = \"equilibrium\"", k, i)
-            if expect == "count":
-                n = c.get("count")
-                if isinstance(n, bool) or not isinstance(n, int) or n < 0:
-                    fail("expect = \"count\" needs count = a non-negative integer", "count"
-                         if "count" in c else "expect", i)
-                claim.count = n
-                if "unstable_dimensions" in c:
-                    dims = c["unstable_dimensions"]
-                    if not isinstance(dims, list) or len(dims) != n or not all(
-                            isinstance(d, int) and not isinstance(d, bool) and d >= 0
-                            for d in dims):
-                        fail(f"expected a list of {n} non-negative integers, one per "
-                             "equilibrium", "unstable_dimensions", i)
-                    claim.unstable_dimensions = dims
-            elif "count" in c or "unstable_dimensions" in c:
-                fail("expect = \"none\" takes no count", "count" if "count" in c
-                     else "unstable_dimensions", i)
+        claim = reader.claim(c, i)
+        if claim.name in names:
+            fail(f"the name {claim.name!r} is used twice", "name", i)
+        names.add(claim.name)
         claims.append(claim)
     title = data.get("title")
     if title is not None and not isinstance(title, str):
         fail("the title is a string", "title")
     return ClaimsFile(p, model_path, claims, title)
+
+
+def _non_negative_int(v) -> bool:
+    return isinstance(v, int) and not isinstance(v, bool) and v >= 0
+
+
+class _ClaimReader:
+    """Reads the [[claim]] tables of one claims file; every refusal names key and line."""
+
+    def __init__(self, text: str, source: str):
+        self.text, self.source = text, source
+
+    def fail(self, reason: str, key: str | None = None, index: int | None = None):
+        from .model.model import _line_of
+
+        line = _line_of(self.text, "claim" if index is not None else None, key or "",
+                        index or 0) if key else None
+        where = f"claim[{index}].{key}" if index is not None and key else key
+        raise InputError(reason, self.source, where, line)
+
+    def value(self, v, key: str, i: int):
+        """Return the exact (lo, hi) of a number or [lo, hi] written under claim[i].key."""
+        from .model.model import _line_of, parse_value
+
+        return parse_value(v, self.source, f"claim[{i}].{key}",
+                           _line_of(self.text, "claim", key.split(".")[0], i))
+
+    def table(self, c: dict, key: str, kind: str, i: int) -> dict:
+        v = c.get(key)
+        if not isinstance(v, dict) or not v:
+            self.fail(f"expected a table of {kind}", key, i)
+        return v
+
+    def claim(self, c, i: int) -> Claim:
+        """Return claim number i, with the keys common to every kind, then its own."""
+        from .model.model import _line_of
+
+        if not isinstance(c, dict):
+            self.fail("a claim is a table", "claim")
+        bad = [k for k in c if k not in KEYS]
+        if bad:
+            self.fail(f"unknown key '{bad[0]}'", bad[0], i)
+        name = c.get("name")
+        if not isinstance(name, str) or not name.strip():
+            self.fail("every claim needs a name (a non-empty string)",
+                      "name" if "name" in c else "expect", i)
+        expect = c.get("expect")
+        if expect not in EXPECT:
+            self.fail(f"expected one of {', '.join(EXPECT)}, found {expect!r}", "expect", i)
+        claim = Claim(name=name, expect=expect, line=_line_of(self.text, "claim", "name", i))
+        for k, v in (self.table(c, "parameters", "parameter values", i).items()
+                     if "parameters" in c else ()):
+            if isinstance(v, dict):
+                self.fail(f"parameter {k}: expected a number or [lo, hi]", "parameters", i)
+            claim.parameters[k] = self.value(v, f"parameters.{k}", i)
+        if "region" in c:
+            claim.region = {}
+            for k, v in self.table(c, "region", "variable ranges", i).items():
+                lo, hi = self.value(v, f"region.{k}", i)
+                if lo >= hi:
+                    self.fail(f"the side for '{k}' is empty or has width 0", "region", i)
+                claim.region[k] = (lo, hi)
+        if "period" in c:
+            if not _non_negative_int(c["period"]) or not 1 <= c["period"] <= MAX_PERIOD:
+                self.fail(f"the period is an integer from 1 to {MAX_PERIOD}", "period", i)
+            claim.period = c["period"]
+        if expect == "equilibrium":
+            self._equilibrium_keys(c, i, claim)
+        else:
+            self._count_keys(c, i, claim)
+        return claim
+
+    def _equilibrium_keys(self, c: dict, i: int, claim: Claim) -> None:
+        """Read near, within, type and unstable_dimension of an equilibrium claim."""
+        claim.near = {}
+        for k, v in self.table(c, "near", "variable values", i).items():
+            try:
+                claim.near[k] = float(v) if not isinstance(v, bool) else None
+            except (TypeError, ValueError):
+                claim.near[k] = None
+            if claim.near[k] is None:
+                self.fail(f"near.{k}: expected a number", "near", i)
+        if "within" in c:
+            w, w2 = self.value(c["within"], "within", i)
+            if w != w2 or w <= 0:
+                self.fail("within is one positive number", "within", i)
+            claim.within = w
+        if "type" in c:
+            if c["type"] not in ("sink", "source", "saddle", "attracting", "repelling"):
+                self.fail(f"unknown type {c['type']!r} (sink, source, saddle; for maps "
+                          "attracting, repelling, saddle)", "type", i)
+            claim.type = c["type"]
+        if "unstable_dimension" in c:
+            if not _non_negative_int(c["unstable_dimension"]):
+                self.fail("expected a non-negative integer", "unstable_dimension", i)
+            claim.unstable_dimension = c["unstable_dimension"]
+        for k in ("count", "unstable_dimensions"):
+            if k in c:
+                self.fail(f"'{k}' belongs to expect = \"count\"", k, i)
+
+    def _count_keys(self, c: dict, i: int, claim: Claim) -> None:
+        """Read count and unstable_dimensions of a count (or none) claim."""
+        for k in ("near", "within", "type", "unstable_dimension"):
+            if k in c:
+                self.fail(f"'{k}' belongs to expect = \"equilibrium\"", k, i)
+        if claim.expect != "count":
+            if "count" in c or "unstable_dimensions" in c:
+                self.fail("expect = \"none\" takes no count", "count" if "count" in c
+                          else "unstable_dimensions", i)
+            return
+        n = c.get("count")
+        if not _non_negative_int(n):
+            self.fail("expect = \"count\" needs count = a non-negative integer",
+                      "count" if "count" in c else "expect", i)
+        claim.count = n
+        if "unstable_dimensions" in c:
+            dims = c["unstable_dimensions"]
+            if not isinstance(dims, list) or len(dims) != n or \
+                    not all(_non_negative_int(d) for d in dims):
+                self.fail(f"expected a list of {n} non-negative integers, one per "
+                          "equilibrium", "unstable_dimensions", i)
+            claim.unstable_dimensions = dims
 
 
 @dataclass

@@ -17,11 +17,10 @@ from certify.check.arith import ArbArithmetic, DomainError
 from certify.check.dyadic import DyadicArithmetic
 from certify.check.expr import Tape, parse_expression
 
+from .published import brusselator_model, logistic_model, lorenz_c_plus, lorenz_model
 
-def lorenz(rho):
-    # Lorenz, J. Atmos. Sci. 20 (1963); Hopf at rho_H = 470/19 for sigma = 10, beta = 8/3.
-    return make_model(["x", "y", "z"], ["sigma*(y - x)", "rho*x - y - x*z", "x*y - beta*z"],
-                      {"sigma": 10, "beta": "8/3", "rho": rho})
+
+lorenz = lorenz_model  # Lorenz 1963: Hopf at rho_H = 470/19 for sigma = 10, beta = 8/3
 
 
 def test_lorenz_c_plus_in_one_piece_on_both_sides_of_the_hopf_value():
@@ -34,7 +33,7 @@ def test_lorenz_c_plus_in_one_piece_on_both_sides_of_the_hopf_value():
         assert verify(r.certificate, "both").claim == r.certificate["claim"]
     # the branch C+ = (sqrt(beta (rho - 1)), ., rho - 1) lies in the reported enclosure
     lo, hi = (mpmath.mpf(q.numerator) / q.denominator for q in up.enclosure["x"])
-    assert lo <= mpmath.sqrt(mpmath.mpf(8) / 3 * 26) and mpmath.sqrt(mpmath.mpf(8) / 3 * 28) <= hi
+    assert lo <= lorenz_c_plus(27)[0] and lorenz_c_plus(29)[0] <= hi
 
 
 def test_lorenz_box_containing_the_hopf_value_is_never_certified():
@@ -42,15 +41,14 @@ def test_lorenz_box_containing_the_hopf_value_is_never_certified():
     assert r.verdict != "hyperbolic"
 
 
-def brusselator(a, b):
-    # Prigogine & Lefever, J. Chem. Phys. 48 (1968): equilibrium (a, b/a), Hopf at b = 1 + a^2.
-    return make_model(["x", "y"], ["a - (b + 1)*x + x**2*y", "b*x - x**2*y"], {"a": a, "b": b})
+brusselator = brusselator_model  # Prigogine & Lefever 1968: Hopf at b = 1 + a^2
 
 
 @pytest.mark.parametrize("a, b, kind", [(["1", "1.1"], ["1.2", "1.5"], "sink"),
                                         (["1", "1.1"], ["2.5", "3"], "source")])
 def test_brusselator_boxes_either_side_of_the_hopf_curve(a, b, kind):
-    # REFERENCES B2 (computed): trace <= -0.5 on the first box, >= 0.29 on the second.
+    # Computed by hand from the trace b - 1 - a^2 at (a, b/a) (Prigogine & Lefever 1968): <= -0.5
+    # on the first box, >= 0.29 on the second.
     r = equilibrium(brusselator(a, b), [{"x": 1.05, "y": 1.5}])[0]
     assert r.verdict == "hyperbolic" and r.type == kind
 
@@ -158,7 +156,7 @@ def test_parameter_form_domain_and_many_parameters():
 
 def test_logistic_map_branch_over_a_parameter_box():
     # May 1976: the fixed point 1 - 1/r has multiplier 2 - r, attracting for 1 < r < 3.
-    m = make_model(["x"], ["r*x*(1 - x)"], {"r": ["2.4", "2.6"]}, kind="map")
+    m = logistic_model(["2.4", "2.6"])
     res = equilibrium(m, [{"x": 0.6}])[0]
     assert (res.type, res.pieces) == ("attracting", 1)
     assert "sensitivity" in res.certificate["pieces"][0]

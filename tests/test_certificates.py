@@ -8,10 +8,11 @@ from fractions import Fraction as F
 
 import pytest
 
-from certify import CertificateRejected, equilibrium, make_model, verify
+from certify import CertificateRejected, equilibrium, verify
 from certify.check import check
 
 from .conftest import EXAMPLES, run_cli
+from .published import brusselator_model
 
 
 @pytest.fixture(scope="module")
@@ -173,8 +174,7 @@ def test_verify_command_line(saddle, tmp_path):
 
 def test_not_hyperbolic_certificate_rejects_a_moved_point():
     # Brusselator at a = 1, b = 2 (Prigogine & Lefever 1968): equilibrium (1, 2), eigenvalues +-i.
-    m = make_model(["x", "y"], ["a - (b + 1)*x + x**2*y", "b*x - x**2*y"], {"a": 1, "b": 2})
-    r = equilibrium(m, [{"x": 1.1, "y": 1.9}])[0]
+    r = equilibrium(brusselator_model(1, 2), [{"x": 1.1, "y": 1.9}])[0]
     assert r.verdict == "not hyperbolic"
     bad = copy.deepcopy(r.certificate)
     bad["claim"]["point"] = ["1", "201/100"]

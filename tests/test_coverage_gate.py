@@ -1,4 +1,5 @@
-"""The trusted checker's branch coverage stays at 100% (DESIGN: the kernel is small and read).
+"""The trusted checker's branch coverage stays at 100% (the kernel is small and read:
+docs/ARCHITECTURE.md).
 
 Runs the deterministic kernel tests under coverage.py in a subprocess and requires every line
 and branch of certify/check/ to be taken; a new branch needs its test in test_kernel_paths.py.

@@ -9,13 +9,15 @@ import pytest
 
 from certify import equilibrium, make_model, verify
 
+from .published import (LOGISTIC_FLIP_R, LORENZ_HOPF_RHO, brusselator_equilibrium,
+                        brusselator_model, logistic_fixed_point, logistic_model,
+                        logistic_period_two, lorenz_c_plus, lorenz_c_plus_charpoly, lorenz_model,
+                        lorenz_origin_eigenvalues)
+
 mpmath.mp.dps = 50
 
 
-def lorenz(rho):
-    # Lorenz, "Deterministic nonperiodic flow", J. Atmos. Sci. 20 (1963) 130-141, eq. (25)-(27).
-    return make_model(["x", "y", "z"], ["sigma*(y - x)", "rho*x - y - x*z", "x*y - beta*z"],
-                      {"sigma": 10, "beta": "8/3", "rho": rho}, name="Lorenz")
+lorenz = lorenz_model
 
 
 def contains(bounds, value) -> bool:
@@ -32,25 +34,22 @@ def only(results):
 
 
 def test_lorenz_origin_and_c_plus_at_rho_28():
-    # Lorenz 1963; eigenvalues as in Strogatz, Nonlinear Dynamics and Chaos, section 9.2:
-    # origin -8/3 and (-11 +- sqrt(1201))/2 (unstable dimension 1);
-    # C+ = (6 sqrt 2, 6 sqrt 2, 27) with a real eigenvalue near -13.8546 and a pair with
-    # real part near +0.0940 (unstable dimension 2). Exact values here: mpmath at 50 digits.
+    # Lorenz 1963 (tests/published.py): the origin has -8/3 and (-11 +- sqrt(1201))/2
+    # (unstable dimension 1); C+ = (6 sqrt 2, 6 sqrt 2, 27) has a real eigenvalue near -13.8546
+    # and a pair with real part near +0.0940 (unstable dimension 2); mpmath at 50 digits.
     o, c = equilibrium(lorenz(28), [{"x": 0.1, "y": 0.1, "z": 0.1}, {"x": 8, "y": 8, "z": 27}])
     assert (o.verdict, o.type, o.unstable_dimension, o.stable_dimension) == \
         ("hyperbolic", "saddle", 1, 2)
     assert all(contains(o.enclosure[v], 0) for v in "xyz")
-    exact_ev = sorted([-mpmath.mpf(8) / 3, (-11 + mpmath.sqrt(1201)) / 2,
-                       (-11 - mpmath.sqrt(1201)) / 2])
+    exact_ev = lorenz_origin_eigenvalues(28)
     assert len(o.eigenvalues) == 3
     for e, v in zip(o.eigenvalues, exact_ev):
         assert contains(e["re"], v)
     assert (c.verdict, c.type, c.unstable_dimension) == ("hyperbolic", "saddle", 2)
-    r72 = mpmath.sqrt(72)
-    assert contains(c.enclosure["x"], r72) and contains(c.enclosure["y"], r72)
-    assert contains(c.enclosure["z"], 27)
-    # roots of l^3 + 41/3 l^2 + 304/3 l + 1440 (the characteristic polynomial at C+, sympy)
-    roots = mpmath.polyroots([1, mpmath.mpf(41) / 3, mpmath.mpf(304) / 3, 1440])
+    assert all(contains(c.enclosure[v], w) for v, w in zip("xyz", lorenz_c_plus(28)))
+    # roots of l^3 + 41/3 l^2 + 304/3 l + 1440, the characteristic polynomial at C+
+    roots = mpmath.polyroots([mpmath.mpf(q.numerator) / q.denominator
+                              for q in lorenz_c_plus_charpoly(28)])
     real = [r for r in roots if abs(mpmath.im(r)) < 1e-30][0]
     pair = [r for r in roots if mpmath.im(r) > 0][0]
     assert contains(c.eigenvalues[0]["re"], mpmath.re(real))
@@ -59,8 +58,9 @@ def test_lorenz_origin_and_c_plus_at_rho_28():
 
 
 def test_lorenz_parameter_boxes_and_the_hopf_value():
-    # Hopf value rho_H = sigma (sigma + beta + 3) / (sigma - beta - 1) = 470/19 (Lorenz 1963;
-    # Strogatz section 9.2). Below it C+ is a sink, above it unstable dimension 2.
+    # Hopf value rho_H = 470/19 (Lorenz 1963, tests/published.py). Below it C+ is a sink,
+    # above it unstable dimension 2.
+    assert LORENZ_HOPF_RHO.value == F(470, 19)
     c_plus = {"x": 7, "y": 7, "z": 21}
     sink = only(equilibrium(lorenz(["20", "24"]), [c_plus]))
     assert (sink.verdict, sink.type, sink.unstable_dimension) == ("hyperbolic", "sink", 0)
@@ -69,7 +69,7 @@ def test_lorenz_parameter_boxes_and_the_hopf_value():
     assert (up.verdict, up.unstable_dimension) == ("hyperbolic", 2)
     across = only(equilibrium(lorenz(["24.7", "24.8"]), [{"x": 8, "y": 8, "z": 24}]))
     assert across.verdict != "hyperbolic"
-    at_hopf = only(equilibrium(lorenz("470/19"), [{"x": 8, "y": 8, "z": 24}]))
+    at_hopf = only(equilibrium(lorenz(LORENZ_HOPF_RHO.value), [{"x": 8, "y": 8, "z": 24}]))
     assert at_hopf.verdict != "hyperbolic"
 
 
@@ -81,10 +81,7 @@ def test_lorenz_pitchfork_at_rho_1_is_proved_not_hyperbolic():
     assert verify(r.certificate).claim["verdict"] == "not hyperbolic"
 
 
-def brusselator(a, b):
-    # Prigogine & Lefever, J. Chem. Phys. 48 (1968) 1695-1700: equilibrium (a, b/a),
-    # Hopf at b = 1 + a^2.
-    return make_model(["x", "y"], ["a - (b + 1)*x + x**2*y", "b*x - x**2*y"], {"a": a, "b": b})
+brusselator = brusselator_model  # Prigogine & Lefever 1968: equilibrium (a, b/a), Hopf b = 1 + a^2
 
 
 @pytest.mark.parametrize("b, verdict, kind", [("3/2", "hyperbolic", "sink"),
@@ -96,7 +93,8 @@ def test_brusselator(b, verdict, kind):
     if verdict == "not hyperbolic":
         assert "imaginary pair" in r.message  # eigenvalues +-i at (1, 2)
     else:
-        assert contains(r.enclosure["x"], 1) and contains(r.enclosure["y"], F(b))
+        x, y = brusselator_equilibrium(1, b)
+        assert contains(r.enclosure["x"], x) and contains(r.enclosure["y"], y)
 
 
 def test_saddle_node_normal_form():
@@ -127,35 +125,32 @@ def test_pitchfork_normal_form():
     assert contains(a.eigenvalues[0]["re"], -2)
 
 
-def logistic(r):
-    # May, "Simple mathematical models with very complicated dynamics", Nature 261 (1976) 459:
-    # fixed point 1 - 1/r with multiplier 2 - r.
-    return make_model(["x"], ["r*x*(1 - x)"], {"r": r}, kind="map")
+logistic = logistic_model  # May 1976: fixed point 1 - 1/r with multiplier 2 - r
 
 
 @pytest.mark.parametrize("r, kind", [("5/2", "attracting"), ("16/5", "repelling")])
 def test_logistic_fixed_point(r, kind):
     res = only(equilibrium(logistic(r), [{"x": 0.6}]))
     assert res.type == kind
-    assert contains(res.enclosure["x"], 1 - 1 / F(r))
-    assert contains(res.eigenvalues[0]["re"], 2 - F(r))
+    point, multiplier = logistic_fixed_point(r)
+    assert contains(res.enclosure["x"], point)
+    assert contains(res.eigenvalues[0]["re"], multiplier)
 
 
 def test_logistic_flip_at_r_3_proved_not_hyperbolic():
     # May 1976: at r = 3 the fixed point 2/3 has multiplier -1.
-    res = only(equilibrium(logistic(3), [{"x": 0.6}]))
+    res = only(equilibrium(logistic(LOGISTIC_FLIP_R.value), [{"x": 0.6}]))
     assert res.verdict == "not hyperbolic" and "-1" in res.message
 
 
 def test_logistic_period_two():
     # May 1976: at r = 16/5 the period-2 points are (r + 1 +- sqrt((r+1)(r-3)))/(2r) with
     # multiplier -r^2 + 2r + 4 = 0.16: attracting.
-    r = mpmath.mpf(16) / 5
-    hi = (r + 1 + mpmath.sqrt((r + 1) * (r - 3))) / (2 * r)
+    _, hi, multiplier = logistic_period_two("16/5")
     res = only(equilibrium(logistic("16/5"), [{"x": 0.8}], period=2))
     assert res.type == "attracting" and res.period == 2
     assert contains(res.enclosure["x"], hi)
-    assert contains(res.eigenvalues[0]["re"], mpmath.mpf("0.16"))
+    assert contains(res.eigenvalues[0]["re"], multiplier)
 
 
 def test_diverging_guess_is_undecided():

@@ -8,13 +8,15 @@ import sympy as sp
 
 from certify.check import exact
 
+from .published import LORENZ_HOPF_RHO, lorenz_c_plus_charpoly
+
 
 def _m(rows):
     return [[F(x) for x in row] for row in rows]
 
 
 def test_rohn_midpoint_radius_test():
-    # REFERENCES B12 (computed): A_c = [[2, 1], [1, 2]], Delta = t * ones: t = 0.4 is certified
+    # Computed by hand: A_c = [[2, 1], [1, 2]], Delta = t * ones: t = 0.4 is certified
     # positive definite; t = 0.5 is the equality case, where the family holds a singular member.
     centre = _m([[2, 1], [1, 2]])
     for t, expected in [(F(2, 5), True), (F(1, 2), False)]:
@@ -40,13 +42,11 @@ def test_charpoly_against_sympy():
 
 
 def test_axis_and_circle_roots():
-    # Lorenz at rho_H = 470/19 (REFERENCES B1): l^3 + 41/3 l^2 + beta(sigma + rho) l
-    # + 2 sigma beta (rho - 1) has the pair +-i omega.
-    s, b, r = F(10), F(8, 3), F(470, 19)
-    assert exact.imaginary_axis_root([2 * s * b * (r - 1), b * (s + r), s + b + 1, F(1)]) \
-        == "imaginary pair"
-    r = F(28)
-    assert exact.imaginary_axis_root([2 * s * b * (r - 1), b * (s + r), s + b + 1, F(1)]) is None
+    # Lorenz 1963 (tests/published.py): at rho_H = 470/19 the characteristic polynomial at C+
+    # has the pair +-i omega; at rho = 28 it has no root on the axis.
+    at_hopf = lorenz_c_plus_charpoly(LORENZ_HOPF_RHO.value)[::-1]  # constant term first
+    assert exact.imaginary_axis_root(at_hopf) == "imaginary pair"
+    assert exact.imaginary_axis_root(lorenz_c_plus_charpoly(28)[::-1]) is None
     assert exact.imaginary_axis_root([F(0), F(1)]) == "zero"
     assert exact.unit_circle_root([F(1), F(-1), F(1)]) == "complex pair"  # e^{+-i pi/3}
     assert exact.unit_circle_root([F(1, 4), F(0), F(1)]) is None          # roots +-i/2

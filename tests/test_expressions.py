@@ -1,4 +1,4 @@
-"""The safe expression parser: whitelist, positions, caps (DESIGN §3)."""
+"""The safe expression parser: whitelist, positions, caps (docs/ARCHITECTURE.md, the kernel)."""
 
 from __future__ import annotations
 

@@ -304,7 +304,7 @@ def _count_code(doc):
 
 
 def test_count_refusals(circle_count, monkeypatch):
-    from certify.check import count as region
+    from certify.check import count
 
     base = circle_count
     zero0 = base["pieces"][0]["zeros"][0]
@@ -348,9 +348,9 @@ def test_count_refusals(circle_count, monkeypatch):
     for doc, code in cases:
         got = _count_code(doc)
         assert code is None or got == code, (code, got)
-    monkeypatch.setattr(region, "MAX_DEPTH", 1)
+    monkeypatch.setattr(count, "MAX_DEPTH", 1)
     assert _count_code(copy.deepcopy(base)) == "malformed"
-    monkeypatch.setattr(region, "MAX_ZEROS", 1)
+    monkeypatch.setattr(count, "MAX_ZEROS", 1)
     assert _count_code(copy.deepcopy(base)) == "malformed"
 
 
@@ -382,7 +382,7 @@ def test_count_pieces_and_domain():
 
 
 def test_count_zero_limit(monkeypatch):
-    from certify.check import count as region
+    from certify.check import count
 
     base = json.loads(json.dumps({"format": "certify-certificate", "version": 1,
                                   "precision": 53, "model": {
@@ -393,5 +393,5 @@ def test_count_zero_limit(monkeypatch):
                                   "region": {"x": ["-1", "1"]},
                                   "pieces": [{"parameters": {}, "zeros": [{}, {}],
                                               "tree": {"exclude": 0}}]}))
-    monkeypatch.setattr(region, "MAX_ZEROS", 1)
+    monkeypatch.setattr(count, "MAX_ZEROS", 1)
     assert _count_code(base) == "malformed"

@@ -1,4 +1,4 @@
-"""Model files: exact decimals, and one clean line for every kind of bad input (DESIGN §8)."""
+"""Model files: exact decimals, one clean line for each kind of bad input (README: Model files)."""
 
 from __future__ import annotations
 

@@ -14,13 +14,12 @@ from certify import CertificateRejected, make_model, verify
 from certify.api import scan
 
 from .conftest import EXAMPLES, run_cli
+from .published import lorenz_model
 
 
 def lorenz(rho):
-    # Lorenz, J. Atmos. Sci. 20 (1963) 130-141.
-    return make_model(["x", "y", "z"], ["sigma*(y - x)", "rho*x - y - x*z", "x*y - beta*z"],
-                      {"sigma": 10, "beta": "8/3", "rho": rho},
-                      region={"x": ["-30", "30"], "y": ["-30", "30"], "z": ["-10", "60"]})
+    # Lorenz 1963 (tests/published.py), in a box holding all three equilibria for rho <= 28.
+    return lorenz_model(rho, region={"x": ["-30", "30"], "y": ["-30", "30"], "z": ["-10", "60"]})
 
 
 def _kinds(result):
@@ -42,8 +41,8 @@ def test_lorenz_one_sink_at_rho_one_half():
 
 
 def test_decoupled_cubics_nine_zeros():
-    # REFERENCES B10(b) (computed): x' = x - x^3, y' = y - y^3 has exactly 9 zeros in
-    # [-1.5, 1.5]^2: (0, 0) dim 2, (+-1, +-1) dim 0, four saddles.
+    # Computed by hand (each coordinate solves t - t^3 = 0): x' = x - x^3, y' = y - y^3
+    # has exactly 9 zeros in [-1.5, 1.5]^2: (0, 0) dim 2, (+-1, +-1) dim 0, four saddles.
     m = make_model(["x", "y"], ["x - x**3", "y - y**3"], {},
                    region={"x": ["-1.5", "1.5"], "y": ["-1.5", "1.5"]})
     r = scan(m)
@@ -52,7 +51,7 @@ def test_decoupled_cubics_nine_zeros():
 
 
 def test_zeros_on_the_border_are_reported_not_counted():
-    # The same system in [-1, 1]^2 puts eight of the zeros on the border (REFERENCES B10).
+    # The same system in [-1, 1]^2 puts eight of the zeros on the border (computed by hand).
     m = make_model(["x", "y"], ["x - x**3", "y - y**3"], {},
                    region={"x": ["-1", "1"], "y": ["-1", "1"]})
     r = scan(m)
@@ -61,7 +60,8 @@ def test_zeros_on_the_border_are_reported_not_counted():
 
 
 def test_circle_and_hyperbola_four_zeros():
-    # REFERENCES B10(a) (computed): x^2 + y^2 = 4, x y = 1 meet in exactly 4 points.
+    # Computed by hand: x^2 + y^2 = 4, x y = 1 give x^4 - 4 x^2 + 1 = 0, x = +-sqrt(2 +- sqrt(3)),
+    # so the curves meet in exactly 4 points.
     m = make_model(["x", "y"], ["x**2 + y**2 - 4", "x*y - 1"], {},
                    region={"x": ["-3", "3"], "y": ["-3", "3"]})
     r = scan(m)

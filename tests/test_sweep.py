@@ -14,13 +14,15 @@ from pathlib import Path
 
 import pytest
 
-from certify import make_model, verify
+from certify import verify
 from certify.api import sweep
 from certify.cli import main
 from certify.io.sweep_store import read_results
 
 from .conftest import ROOT
+from .published import LORENZ_HOPF_RHO, brusselator_hopf_b, brusselator_model
 
+# The Lorenz model of tests/published.py, written as a model file (the sweep reads files).
 LORENZ = """
 name = "Lorenz 1963"
 kind = "flow"
@@ -53,9 +55,8 @@ x = ["-2", "2"]
 
 
 def brusselator():
-    # Prigogine & Lefever, J. Chem. Phys. 48 (1968): equilibrium (a, b/a), Hopf at b = 1 + a^2.
-    return make_model(["x", "y"], ["a - (b + 1)*x + x**2*y", "b*x - x**2*y"],
-                      {"a": "1", "b": "2"}, guesses=[{"x": 1.2, "y": 2.5}])
+    # Prigogine & Lefever 1968 (tests/published.py): equilibrium (a, b/a), Hopf at b = 1 + a^2.
+    return brusselator_model("1", "2", guesses=[{"x": 1.2, "y": 2.5}])
 
 
 def by_cell(folder) -> dict:
@@ -100,13 +101,13 @@ def test_brusselator_grid_sinks_below_sources_above_nothing_across(tmp_path):
     for r in cells.values():
         (a0, a1), (b0, b1) = ([F(v) for v in r["parameters"][k]] for k in ("a", "b"))
         e = r["equilibria"][0]
-        if b1 + half <= 1 + a0 * a0:
+        if b1 + half <= brusselator_hopf_b(a0):
             below += 1
             assert e["verdict"] == "hyperbolic" and e["type"] == "sink", r
-        elif b0 - half >= 1 + a1 * a1:
+        elif b0 - half >= brusselator_hopf_b(a1):
             above += 1
             assert e["verdict"] == "hyperbolic" and e["type"] == "source", r
-        if b0 < 1 + a1 * a1 and b1 > 1 + a0 * a0:  # the curve meets the cell
+        if b0 < brusselator_hopf_b(a1) and b1 > brusselator_hopf_b(a0):  # the curve meets it
             assert e["verdict"] == "undecided", r
     assert below > 100 and above > 150
     assert check_certificates(result.folder, cells.values()) > 0
@@ -123,7 +124,7 @@ def test_lorenz_56_cells_sinks_then_saddles(tmp_path, write):
                  "--workers", "1", "--json"])
     assert code == 1  # the cell with rho_H stays undecided
     cells = by_cell(out)
-    rho_h = F(470, 19)
+    rho_h = LORENZ_HOPF_RHO.value
     for r in cells.values():
         lo, hi = (F(v) for v in r["parameters"]["rho"])
         e = r["equilibria"][0]

@@ -22,7 +22,8 @@ from .tiling import check_tiling, piece_parameters
 
 MAX_NODES = 2_000_000
 MAX_DEPTH = 200
-MAX_ZEROS = 10_000  # zeros in one piece, and pieces of one count
+MAX_ZEROS = 10_000  # zeros in one piece, and the count claimed
+MAX_COUNT_PIECES = 10_000  # parameter pieces of one count
 
 
 def check_count(cert: Certificate, ar) -> tuple[dict, list[Box]]:
@@ -44,8 +45,9 @@ def check_count(cert: Certificate, ar) -> tuple[dict, list[Box]]:
             integer(d, 0, n, f"claim.stable_dimensions[{i}]")
     want = sorted(dims, key=lambda d: (d is None, d))
     pieces = items(cert.data.get("pieces"), None, "pieces")
-    if not 1 <= len(pieces) <= MAX_ZEROS:
-        raise CertificateRejected("malformed", "pieces", f"expected 1 to {MAX_ZEROS} pieces")
+    if not 1 <= len(pieces) <= MAX_COUNT_PIECES:
+        raise CertificateRejected("malformed", "pieces", f"expected 1 to {MAX_COUNT_PIECES} "
+                                  "pieces")
     covers, first, leaves = [], None, 0
     for i, piece in enumerate(pieces):
         where = f"pieces[{i}]"

@@ -288,7 +288,8 @@ def read_zero(v, n: int, k: int, where: str, required=frozenset(), optional=froz
                   enumerate(items(v["preconditioner_slopes"], k, f"{where}.preconditioner_slopes"))]
     if "sensitivity" in v:
         sens = matrix(v["sensitivity"], n, f"{where}.sensitivity", k)
-    hint = ZeroHint(vector(v["centre"], n, f"{where}.centre"), intervals(v["box"], n, f"{where}.box"),
+    hint = ZeroHint(vector(v["centre"], n, f"{where}.centre"),
+                    intervals(v["box"], n, f"{where}.box"),
                     matrix(v["preconditioner"], n, f"{where}.preconditioner"), sens, slopes)
     if inertia:
         hint.inertia_matrix = matrix(v["inertia_matrix"], n, f"{where}.inertia_matrix")

@@ -127,7 +127,7 @@ def read_text(path: str | Path) -> str:
 
 
 def model_from_text(text: str, source: str = "<model>") -> Model:
-    """Return the Model described by the TOML text (DESIGN §8)."""
+    """Return the Model described by the TOML text (README, "Model files")."""
     data = parse_toml(text, source)
     return _build(data, source, lambda table, key, index=0: _line_of(text, table, key, index))
 

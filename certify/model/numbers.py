@@ -27,3 +27,15 @@ def parse_rational(text: str) -> Fraction:
 def rational_text(q: Fraction) -> str:
     """Return q as certificates write exact numbers: "p" or "p/q"."""
     return str(q.numerator) if q.denominator == 1 else f"{q.numerator}/{q.denominator}"
+
+
+def bounds_texts(lo: Fraction, hi: Fraction) -> list[str]:
+    """Return [lo, hi] as the exact texts of a certificate or a results file."""
+    return [rational_text(lo), rational_text(hi)]
+
+
+def exact_texts(value):
+    """Return a rational, or nested lists (or tuples) of them, as the same nesting of texts."""
+    if isinstance(value, (list, tuple)):
+        return [exact_texts(v) for v in value]
+    return rational_text(value)

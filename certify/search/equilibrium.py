@@ -26,10 +26,9 @@ from ..check.verdict import Verified, check
 from ..model.numbers import rational_text
 from ..model import Interval, Model
 from ..model.symbolic import FloatSystem
+from ..settings import (DEFAULT_MAX_PRECISION, DEFAULT_PRECISION, INFLATION_ROUNDS, MAX_PIECES,
+                        MIN_PIECE_FRACTION)
 from .inertia import common_inertia_matrix, inertia_matrix, to_exact
-
-from .settings import (DEFAULT_MAX_PRECISION, DEFAULT_PRECISION, INFLATION_ROUNDS, MAX_PIECES,
-                       MIN_PIECE_FRACTION)
 
 
 class Undecided(Exception):
@@ -512,7 +511,7 @@ def _cover(model, problem, full, x0, precision, max_precision, max_pieces, first
 
 
 def _try_not_hyperbolic(model: Model, problem: Problem, x0: np.ndarray, attempt: Attempt):
-    """Prove a zero is not hyperbolic when it is exactly rational (DESIGN §4.4)."""
+    """Prove a zero is not hyperbolic when it is exactly rational (proofs/FORMAT.md, obligation 6)."""
     system = FloatSystem(model)
     try:
         x = newton(system, model.kind, problem.period, x0, iterations=400)

@@ -23,16 +23,15 @@ from ..check.count import inside_for_every_p, widened
 from ..check.forms import check_enclosure, spreads
 from ..check.reader import CertificateRejected, ZeroHint, read_zero
 from ..check.verdict import check
-from ..model.numbers import rational_text
+from ..model.numbers import bounds_texts, exact_texts, rational_text
 from ..model import Interval, Model
 from ..model.symbolic import FloatSystem
 from .equilibrium import (Undecided, _inflate, branch_enclosure, certificate,
                           certify_branch_piece, certify_piece, float_residual, krawczyk_image,
                           problem_of)
+from ..settings import SCAN_MAX_BOXES, SCAN_TIME_LIMIT
 from .inertia import to_exact
 
-DEFAULT_MAX_BOXES = 200_000
-DEFAULT_TIME_LIMIT = 120.0  # seconds
 MIN_WIDTH = Fraction(1, 2**40)  # smallest box side, relative to the region's side
 GROWTH_STEPS = 40
 
@@ -67,10 +66,6 @@ class ScanResult:
     certificate: dict | None = None
     certificate_path: str | None = None
     pieces: int = 0
-
-
-def _q(q: Fraction) -> str:
-    return rational_text(q)
 
 
 class _Scanner:
@@ -125,7 +120,7 @@ class _Scanner:
                     continue
                 mid = (lo + hi) / 2
             low, high = {}, {}
-            node.update({"split": k, "at": _q(mid), "low": low, "high": high})
+            node.update({"split": k, "at": rational_text(mid), "low": low, "high": high})
             stack.append((high, box[:k] + [(mid, hi)] + box[k + 1:]))
             stack.append((low, box[:k] + [(lo, mid)] + box[k + 1:]))
         return root
@@ -237,8 +232,8 @@ class _Scanner:
         if any(self._meets(box, z.box) for z in self.zeros):
             return None
         box = self._grow(centre, box, precond)  # every trial kept clear of the other zeros
-        entry = {"centre": [_q(c) for c in centre], "box": [[_q(lo), _q(hi)] for lo, hi in box],
-                 "preconditioner": [[_q(v) for v in row] for row in precond]}
+        entry = {"centre": exact_texts(centre), "box": exact_texts(box),
+                 "preconditioner": exact_texts(precond)}
         zero = Zero(entry=entry, box=box, core=box)
         try:
             piece = certify_piece(problem, self.pbox, x, 53)
@@ -272,11 +267,9 @@ class _Scanner:
         box = [(c - r, c + r) for c, r in zip(centre, start)]
         box = self._grow(centre, box, precond, (sens, slopes, spread))  # hulls kept apart
         form = ZeroHint(centre, box, precond, sens, slopes)
-        entry = {"centre": [_q(c) for c in centre],
-                 "box": [[_q(lo), _q(hi)] for lo, hi in box],
-                 "preconditioner": [[_q(v) for v in row] for row in precond],
-                 "sensitivity": [[_q(v) for v in row] for row in sens],
-                 "preconditioner_slopes": [[[_q(v) for v in row] for row in m] for m in slopes]}
+        entry = {"centre": exact_texts(centre), "box": exact_texts(box),
+                 "preconditioner": exact_texts(precond), "sensitivity": exact_texts(sens),
+                 "preconditioner_slopes": exact_texts(slopes)}
         zero = Zero(entry=entry, box=widened(form, self.pbox, 1),
                     core=widened(form, self.pbox, -1))
         try:
@@ -371,8 +364,8 @@ class _Scanner:
         except (DomainError, np.linalg.LinAlgError, ValueError):
             return None
         if any(k_hi < lo or hi < k_lo for (lo, hi), (k_lo, k_hi) in zip(box, kb)):
-            return {"empty": {"centre": [_q(c) for c in centre],
-                              "preconditioner": [[_q(v) for v in row] for row in precond]}}
+            return {"empty": {"centre": exact_texts(centre),
+                              "preconditioner": exact_texts(precond)}}
         return None
 
 
@@ -381,7 +374,7 @@ MIN_PIECE = Fraction(1, 2**12)  # narrowest parameter piece, relative to the req
 
 
 def scan(model: Model, region: dict[str, Interval] | None = None,
-         max_boxes: int = DEFAULT_MAX_BOXES, time_limit: float = DEFAULT_TIME_LIMIT,
+         max_boxes: int = SCAN_MAX_BOXES, time_limit: float = SCAN_TIME_LIMIT,
          progress=None, arithmetics: tuple[str, ...] = ("flint",),
          cut_parameters: bool = True) -> ScanResult:
     """Return the certified number of equilibria (fixed points) of the model in the region.
@@ -427,7 +420,7 @@ def scan(model: Model, region: dict[str, Interval] | None = None,
                     f"{p}=[{float(lo):.6g}, {float(hi):.6g}]"
                     for p, (lo, hi) in zip(problem.params, pbox)) + ")"
             return result
-        pieces.append({"parameters": {p: [_q(lo), _q(hi)] for p, (lo, hi) in
+        pieces.append({"parameters": {p: bounds_texts(lo, hi) for p, (lo, hi) in
                                       zip(problem.params, pbox)},
                        "zeros": [z.entry for z in scanner.zeros], "tree": tree})
         if first_zeros is None:
@@ -443,7 +436,7 @@ def scan(model: Model, region: dict[str, Interval] | None = None,
     dims = _dims(pieces[0], b)
     claim = {"verdict": "count", "count": len(dims), "stable_dimensions": dims}
     cert = certificate(model, 1, 53, claim, [])
-    cert["region"] = {v: [_q(lo), _q(hi)] for v, (lo, hi) in zip(model.variables, b)}
+    cert["region"] = {v: bounds_texts(lo, hi) for v, (lo, hi) in zip(model.variables, b)}
     cert["pieces"] = pieces
     try:
         for name in arithmetics:

@@ -28,7 +28,6 @@ from ..model.numbers import rational_text
 from ..model import Interval, Model
 from ..model.symbolic import FloatSystem
 
-MAX_CELLS = 10_000_000
 STEER_AXES = 4  # floats at the 2^k corners steer blocks in up to this many grid parameters
 
 
@@ -65,7 +64,7 @@ class Job:
     period: int = 1
     refine: int = 0
     max_boxes: int = 2_000
-    # In-process checks use the fast arithmetic (DESIGN: it may serve there); certify verify
+    # In-process checks use the fast arithmetic (it may serve there); certify verify
     # re-checks the written certificates with both.
     arithmetics: tuple[str, ...] = ("flint",)
 
