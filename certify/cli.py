@@ -33,6 +33,15 @@ exit codes: 0 everything asked for is certified; 1 something is undecided, not h
 rejected; 2 the input is bad (the message says where and why)."""
 
 
+def _model_options(q) -> None:
+    """Add the model file, --set and --json."""
+    q.add_argument("model", metavar="MODEL", help="model file (TOML)")
+    q.add_argument("--set", action="append", default=[], metavar="NAME=VALUE",
+                   help="override a parameter: NAME=VALUE (exact, e.g. 0.1 or 8/3) or "
+                        "NAME=LO..HI (every value in the interval); repeatable")
+    q.add_argument("--json", action="store_true", help="print one JSON object on stdout")
+
+
 def _parser() -> argparse.ArgumentParser:
     p = argparse.ArgumentParser(
         prog="certify", formatter_class=argparse.RawDescriptionHelpFormatter,
@@ -41,20 +50,21 @@ def _parser() -> argparse.ArgumentParser:
         epilog=EXAMPLES)
     p.add_argument("--version", action="version", version=f"certify {__version__}")
     sub = p.add_subparsers(dest="command", metavar="COMMAND")
+    _search_parsers(sub)
+    _sweep_parser(sub)
+    _other_parsers(sub)
+    return p
 
-    def model_options(q):
-        q.add_argument("model", metavar="MODEL", help="model file (TOML)")
-        q.add_argument("--set", action="append", default=[], metavar="NAME=VALUE",
-                       help="override a parameter: NAME=VALUE (exact, e.g. 0.1 or 8/3) or "
-                            "NAME=LO..HI (every value in the interval); repeatable")
-        q.add_argument("--json", action="store_true", help="print one JSON object on stdout")
+
+def _search_parsers(sub) -> None:
+    """Add inspect, equilibrium and scan."""
 
     q = sub.add_parser("inspect", help="print the parsed model and its symbolic Jacobian")
-    model_options(q)
+    _model_options(q)
 
     q = sub.add_parser("equilibrium", help="certify the equilibria reached from guesses",
                        formatter_class=argparse.RawDescriptionHelpFormatter, epilog=EXAMPLES)
-    model_options(q)
+    _model_options(q)
     q.add_argument("--guess", action="append", default=[], metavar="u=2.9,v=0.35",
                    help="starting point for Newton's method; repeatable (default: the model's "
                         "[[guesses]])")
@@ -70,7 +80,7 @@ def _parser() -> argparse.ArgumentParser:
 
     q = sub.add_parser("scan", help="find every equilibrium in a region and certify the count",
                        formatter_class=argparse.RawDescriptionHelpFormatter, epilog=EXAMPLES)
-    model_options(q)
+    _model_options(q)
     q.add_argument("--region", metavar="u=0..4,v=0..4",
                    help="the search box (default: the model's [region])")
     q.add_argument("--max-boxes", type=int, default=SCAN_MAX_BOXES, metavar="N",
@@ -80,9 +90,12 @@ def _parser() -> argparse.ArgumentParser:
                    help=f"stop after this many seconds (default {SCAN_TIME_LIMIT:g})")
     q.add_argument("--out", metavar="CERT.json", help="write the certificate of the count here")
 
+
+def _sweep_parser(sub) -> None:
+    """Add sweep."""
     q = sub.add_parser("sweep", help="certify every cell of a parameter grid (each cell a box)",
                        formatter_class=argparse.RawDescriptionHelpFormatter, epilog=EXAMPLES)
-    model_options(q)
+    _model_options(q)
     q.add_argument("--grid", action="append", default=[], metavar="NAME=LO..HI:N",
                    help="sweep parameter NAME over N equal cells from LO to HI; repeatable")
     what = q.add_mutually_exclusive_group()
@@ -110,6 +123,9 @@ def _parser() -> argparse.ArgumentParser:
     q.add_argument("--resume", action="store_true",
                    help="go on with an interrupted sweep in DIR (same model and arguments)")
 
+
+def _other_parsers(sub) -> None:
+    """Add gate, report and verify."""
     q = sub.add_parser("gate", help="certify every claim of a claims file (for CI and reviews)",
                        formatter_class=argparse.RawDescriptionHelpFormatter, epilog=EXAMPLES)
     q.add_argument("claims", metavar="CLAIMS.toml", help="claims file (TOML)")
@@ -136,7 +152,6 @@ def _parser() -> argparse.ArgumentParser:
                         "(our standard-library dyadic intervals) or both (default; a file is "
                         "VERIFIED only if every selected arithmetic accepts it)")
     q.add_argument("--json", action="store_true", help="print one JSON object on stdout")
-    return p
 
 
 def parse_assignments(items: list[str], option: str) -> dict[str, tuple[Fraction, Fraction]]:

@@ -95,3 +95,15 @@ def test_the_checker_imports_nothing_from_the_rest():
     for m, deps in _graph().items():
         if m.startswith("certify.check"):
             assert all(d.startswith("certify.check") for d in deps), (m, deps)
+
+
+def test_functions_a_reader_can_hold():
+    """No function of the package is longer than 60 lines (split it; data tables excepted)."""
+    long = []
+    for path in PACKAGE.rglob("*.py"):
+        for node in ast.walk(ast.parse(path.read_text())):
+            if isinstance(node, (ast.FunctionDef, ast.AsyncFunctionDef)):
+                length = node.end_lineno - node.lineno + 1
+                if length > 60:
+                    long.append(f"{_module(path)}.{node.name}: {length} lines")
+    assert not long, "\n".join(long)

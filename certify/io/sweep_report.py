@@ -155,6 +155,29 @@ def draw_maps(folder: str | Path, manifest: dict | None = None) -> list[str]:
     axes = [a.split("=")[0] for a in manifest["arguments"]["grid"]]
     if len(axes) > 2:
         return []
+    labels, patches, rows = _map_patches(read_results(folder), axes, Rectangle)
+    fig, ax = plt.subplots(figsize=(7, 7) if len(axes) == 2 else (8, 2.0 + 0.5 * rows))
+    if "undecided" in patches:  # undecided cells first, hatched; certified parts on top
+        ax.add_collection(PatchCollection(patches.pop("undecided"), facecolor=UNDECIDED,
+                                          edgecolor="#636363", hatch="///", linewidth=0.0))
+    for label, items in sorted(patches.items()):
+        ax.add_collection(PatchCollection(items, facecolor=labels[label], edgecolor="none"))
+    _decorate(ax, manifest, axes, labels, rows, Patch)
+    fig.tight_layout()
+    out = []
+    for ext in ("png", "svg"):
+        path = folder / f"map.{ext}"
+        tmp = folder / f".tmp-map.{ext}"
+        fig.savefig(tmp, dpi=130, bbox_inches="tight")
+        tmp.replace(path)
+        out.append(str(path))
+    plt.close(fig)
+    return out
+
+
+def _map_patches(records, axes: list[str], rectangle) -> tuple[dict, dict, int]:
+    """Return the colour of each label, the rectangles of each label, and the rows (one axis:
+    one row per tracked equilibrium)."""
     labels, patches = {}, {}
 
     def colour(label):
@@ -169,10 +192,10 @@ def draw_maps(folder: str | Path, manifest: dict | None = None) -> list[str]:
         else:
             x0, x1 = (float(Fraction(v)) for v in params[axes[0]])
             y0, y1 = row, row + 0.8
-        return Rectangle((x0, y0), x1 - x0, y1 - y0)
+        return rectangle((x0, y0), x1 - x0, y1 - y0)
 
     rows = 1
-    for record in read_results(folder):
+    for record in records:
         label = cell_label(record)
         if len(axes) == 1 and "equilibria" in record:
             rows = max(rows, len(record["equilibria"]))
@@ -198,12 +221,11 @@ def draw_maps(folder: str | Path, manifest: dict | None = None) -> list[str]:
                       else f"{part['type']} (unstable dimension {part['unstable_dimension']})")
                 colour(pl)
                 patches.setdefault(pl, []).append(rect(part["parameters"]))
-    fig, ax = plt.subplots(figsize=(7, 7) if len(axes) == 2 else (8, 2.0 + 0.5 * rows))
-    if "undecided" in patches:  # undecided cells first, hatched; certified parts on top
-        ax.add_collection(PatchCollection(patches.pop("undecided"), facecolor=UNDECIDED,
-                                          edgecolor="#636363", hatch="///", linewidth=0.0))
-    for label, items in sorted(patches.items()):
-        ax.add_collection(PatchCollection(items, facecolor=labels[label], edgecolor="none"))
+    return labels, patches, rows
+
+
+def _decorate(ax, manifest: dict, axes: list[str], labels: dict, rows: int, patch) -> None:
+    """Set the limits, labels, legend and title of a sweep map."""
     grid = manifest["arguments"]["grid"]
     ranges = []
     for g in grid:
@@ -219,7 +241,7 @@ def draw_maps(folder: str | Path, manifest: dict | None = None) -> list[str]:
         ax.set_yticks([r + 0.4 for r in range(rows)])
         ax.set_yticklabels([f"equilibrium {r + 1}" for r in range(rows)]
                            if manifest["arguments"]["mode"] == "guess" else ["count"])
-    handles = [Patch(facecolor=c, label=lab, hatch="///" if lab == "undecided" else None,
+    handles = [patch(facecolor=c, label=lab, hatch="///" if lab == "undecided" else None,
                      edgecolor="#636363" if lab == "undecided" else c)
                for lab, c in sorted(labels.items(), key=lambda kv: kv[0] == "undecided")]
     ax.legend(handles=handles, fontsize=8,
@@ -229,13 +251,3 @@ def draw_maps(folder: str | Path, manifest: dict | None = None) -> list[str]:
               title="certified for every parameter in the cell (or part)", title_fontsize=8)
     ax.set_title(f"{manifest.get('model_name', manifest['model'])}\n{manifest['cells']} cells, "
                  "each a closed parameter box", fontsize=10)
-    fig.tight_layout()
-    out = []
-    for ext in ("png", "svg"):
-        path = folder / f"map.{ext}"
-        tmp = folder / f".tmp-map.{ext}"
-        fig.savefig(tmp, dpi=130, bbox_inches="tight")
-        tmp.replace(path)
-        out.append(str(path))
-    plt.close(fig)
-    return out

@@ -172,7 +172,18 @@ def _build(data: dict, source: str, line_of) -> Model:
     name = data.get("name", Path(source).stem)
     if not isinstance(name, str):
         fail("name must be text", None, "name")
+    variables = _variables(data, fail)
+    parameters = _parameters(data, variables, fail)
+    equations, trees = _equations(data, variables, parameters, fail)
+    guesses = _guesses(data, variables, fail)
+    region = _region(data, variables, fail) if "region" in data else None
+    return Model(name=name, kind=kind, variables=tuple(variables), parameters=parameters,
+                 equations={v: equations[v] for v in variables}, trees=tuple(trees),
+                 guesses=tuple(guesses), region=region, source=source)
 
+
+def _variables(data: dict, fail) -> list[str]:
+    """Return the list of variable names: identifiers, not reserved, each once."""
     variables = data.get("variables")
     if not isinstance(variables, list) or not variables:
         fail("variables must be a non-empty list of names", None, "variables")
@@ -184,7 +195,11 @@ def _build(data: dict, source: str, line_of) -> Model:
                  "variables")
     if len(set(variables)) != len(variables):
         fail("a variable is listed twice", None, "variables")
+    return variables
 
+
+def _parameters(data: dict, variables: list[str], fail) -> dict[str, Interval]:
+    """Return the parameters with their exact values or intervals."""
     raw_params = data.get("parameters", {})
     if not isinstance(raw_params, dict):
         fail("parameters must be a table", None, "parameters")
@@ -199,13 +214,16 @@ def _build(data: dict, source: str, line_of) -> Model:
             parameters[pname] = parse_value(raw)
         except InputError as exc:
             fail(exc.reason, "parameters", pname)
+    return parameters
 
+
+def _equations(data: dict, variables: list[str], parameters: dict, fail) -> tuple[dict, list]:
+    """Return the equations (one per variable) and their parsed trees."""
     equations = data.get("equations")
     if not isinstance(equations, dict):
         fail("an [equations] table with one right-hand side per variable is required",
              None, "equations")
     names = frozenset(variables) | frozenset(parameters)
-    trees = []
     for v in variables:
         if v not in equations:
             fail(f"missing equation for variable '{v}'", "equations", None)
@@ -214,12 +232,17 @@ def _build(data: dict, source: str, line_of) -> Model:
             fail(f"equation for '{v}', which is not a variable", "equations", v)
         if not isinstance(rhs, str):
             fail("an equation must be a string", "equations", v)
+    trees = []
     for v in variables:
         try:
             trees.append(parse_expression(equations[v], names))
         except ExpressionError as exc:
             fail(str(exc), "equations", v, column=None)
+    return equations, trees
 
+
+def _guesses(data: dict, variables: list[str], fail) -> list[dict[str, float]]:
+    """Return the [[guesses]]: one number per variable each."""
     guesses = []
     raw_guesses = data.get("guesses", [])
     if not isinstance(raw_guesses, list):
@@ -242,26 +265,25 @@ def _build(data: dict, source: str, line_of) -> Model:
                 fail("a guess is a single number", "guesses", v, i)
             point[v] = float(lo)
         guesses.append(point)
+    return guesses
 
-    region = None
-    if "region" in data:
-        raw_region = data["region"]
-        if not isinstance(raw_region, dict):
-            fail("region must be a table of [lo, hi] per variable", None, "region")
-        region = {}
-        for key, raw in raw_region.items():
-            if key not in variables:
-                fail(f"'{key}' is not a variable", "region", key)
-            if not isinstance(raw, list):
-                fail("a region side is [lo, hi]", "region", key)
-            try:
-                region[key] = parse_value(raw)
-            except InputError as exc:
-                fail(exc.reason, "region", key)
-        for v in variables:
-            if v not in region:
-                fail(f"the region has no side for '{v}'", "region", None)
 
-    return Model(name=name, kind=kind, variables=tuple(variables), parameters=parameters,
-                 equations={v: equations[v] for v in variables}, trees=tuple(trees),
-                 guesses=tuple(guesses), region=region, source=source)
+def _region(data: dict, variables: list[str], fail) -> dict[str, Interval]:
+    """Return the [region]: one side [lo, hi] per variable."""
+    raw_region = data["region"]
+    if not isinstance(raw_region, dict):
+        fail("region must be a table of [lo, hi] per variable", None, "region")
+    region = {}
+    for key, raw in raw_region.items():
+        if key not in variables:
+            fail(f"'{key}' is not a variable", "region", key)
+        if not isinstance(raw, list):
+            fail("a region side is [lo, hi]", "region", key)
+        try:
+            region[key] = parse_value(raw)
+        except InputError as exc:
+            fail(exc.reason, "region", key)
+    for v in variables:
+        if v not in region:
+            fail(f"the region has no side for '{v}'", "region", None)
+    return region

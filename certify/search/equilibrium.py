@@ -193,9 +193,47 @@ def branch_enclosure(problem: Problem, system: FloatSystem, pbox: list[Interval]
 
     For every p in the box, the zero lies in c + A (p - p_c) + (X - c). Raises Undecided.
     """
-    n, k = len(x), len(pbox)
     ar = ArbArithmetic(prec)
-    fx, jx = float_residual(system, problem.kind, problem.period, x)
+    jinv, sens_float, slopes = _branch_slopes(problem, system, pbox, x)
+    sens = to_exact(sens_float)
+    precond = to_exact(jinv)
+    slopes_exact = [to_exact(m) for m in slopes]
+    centre = [Fraction(float(v)) for v in x]
+    tiny = Fraction(2) ** (-prec - 20)
+    try:
+        image, _, _, _ = branch_krawczyk(problem, ar, pbox, ZeroHint(
+            centre, [(c, c) for c in centre], precond, sens, slopes_exact))
+        radius = [max(abs(lo), abs(hi)) * 2 + abs(c) * Fraction(2) ** (-prec + 5) + tiny
+                  for (lo, hi), c in zip(image, centre)]
+        for _ in range(INFLATION_ROUNDS):
+            box = [(c - r, c + r) for c, r in zip(centre, radius)]
+            image, e, jac, form_ar = branch_krawczyk(problem, ar, pbox, ZeroHint(
+                centre, box, precond, sens, slopes_exact))
+            if all(e_lo < lo and hi < e_hi for (lo, hi), (e_lo, e_hi) in zip(image, e)):
+                break
+            # E starts at twice the image at E = 0, so image > 1.5 E means the linear part
+            # alone expands (factor > 1) here, and it only grows with E: give up at once.
+            if any(max(abs(lo), abs(hi)) > Fraction(3, 2) * r
+                   for r, (lo, hi) in zip(radius, image)):
+                raise Undecided("box-too-wide", "the first-order branch form did not enclose "
+                                "(the Krawczyk map expands over this parameter box)")
+            radius = [max(r, abs(lo), abs(hi)) * Fraction(3, 2) + tiny
+                      for r, (lo, hi) in zip(radius, image)]
+            if any(r > 1e3 * (1 + abs(c)) for r, c in zip(radius, centre)):
+                raise Undecided("box-too-wide", "the first-order branch form did not enclose")
+        else:
+            raise Undecided("box-too-wide", "the first-order branch form did not enclose")
+    except DomainError as exc:
+        raise Undecided("domain", str(exc)) from None
+    return centre, box, sens, precond, slopes_exact, jac, form_ar
+
+
+def _branch_slopes(problem: Problem, system: FloatSystem, pbox: list[Interval],
+                   x: np.ndarray) -> tuple[np.ndarray, np.ndarray, list[np.ndarray]]:
+    """Return J^-1, the sensitivity -J^-1 df/dp and the slopes d/dp J(x(p), p)^-1 along the
+    branch, at x, by central differences in floats (they only steer). Raises Undecided."""
+    n, k = len(x), len(pbox)
+    _, jx = float_residual(system, problem.kind, problem.period, x)
     try:
         jinv = np.linalg.inv(jx)
     except np.linalg.LinAlgError:
@@ -217,8 +255,7 @@ def branch_enclosure(problem: Problem, system: FloatSystem, pbox: list[Interval]
         system.point[name] = saved
         dfdp[:, i] = (up - down) / (2 * h)
     sens_float = -jinv @ dfdp
-    # The preconditioner's slopes: d/dp of J(x(p), p)^-1 along the branch, so that
-    # I - C(p) J(p) is of second order in p - p_c (central differences; they only steer).
+    # The preconditioner's slopes make I - C(p) J(p) of second order in p - p_c.
     slopes = []
     for i, name in enumerate(problem.params):
         h = steps[i]
@@ -236,37 +273,7 @@ def branch_enclosure(problem: Problem, system: FloatSystem, pbox: list[Interval]
         slopes.append((inverses[0] - inverses[1]) / (2 * h))
     if not all(np.all(np.isfinite(m)) for m in slopes):
         raise Undecided("no-enclosure", "the Jacobian is singular near the branch")
-    sens = to_exact(sens_float)
-    precond = to_exact(jinv)
-    slopes_exact = [to_exact(m) for m in slopes]
-    centre = [Fraction(float(v)) for v in x]
-    tiny = Fraction(2) ** (-prec - 20)
-    try:
-        image, _, _, _ = branch_krawczyk(problem, ar, pbox, ZeroHint(
-            centre, [(c, c) for c in centre], precond, sens, slopes_exact))
-        radius = [max(abs(lo), abs(hi)) * 2 + abs(c) * Fraction(2) ** (-prec + 5) + tiny
-                  for (lo, hi), c in zip(image, centre)]
-        for _ in range(INFLATION_ROUNDS):
-            box = [(c - r, c + r) for c, r in zip(centre, radius)]
-            image, e, jac, aff = branch_krawczyk(problem, ar, pbox, ZeroHint(
-                centre, box, precond, sens, slopes_exact))
-            if all(e_lo < lo and hi < e_hi for (lo, hi), (e_lo, e_hi) in zip(image, e)):
-                break
-            # E starts at twice the image at E = 0, so image > 1.5 E means the linear part
-            # alone expands (factor > 1) here, and it only grows with E: give up at once.
-            if any(max(abs(lo), abs(hi)) > Fraction(3, 2) * r
-                   for r, (lo, hi) in zip(radius, image)):
-                raise Undecided("box-too-wide", "the first-order branch form did not enclose "
-                                "(the Krawczyk map expands over this parameter box)")
-            radius = [max(r, abs(lo), abs(hi)) * Fraction(3, 2) + tiny
-                      for r, (lo, hi) in zip(radius, image)]
-            if any(r > 1e3 * (1 + abs(c)) for r, c in zip(radius, centre)):
-                raise Undecided("box-too-wide", "the first-order branch form did not enclose")
-        else:
-            raise Undecided("box-too-wide", "the first-order branch form did not enclose")
-    except DomainError as exc:
-        raise Undecided("domain", str(exc)) from None
-    return centre, box, sens, precond, slopes_exact, jac, aff
+    return jinv, sens_float, slopes
 
 
 def certify_branch_piece(problem: Problem, system: FloatSystem, pbox: list[Interval],
@@ -278,7 +285,7 @@ def certify_branch_piece(problem: Problem, system: FloatSystem, pbox: list[Inter
     """
     n = len(x)
     ar = ArbArithmetic(prec)
-    centre, box, sens, precond, slopes_exact, jac, aff = branch_enclosure(problem, system, pbox,
+    centre, box, sens, precond, slopes_exact, jac, form_ar = branch_enclosure(problem, system, pbox,
                                                                          x, prec)
     jmid = np.array([[float(v.c.mid()) for v in row] for row in jac])
     s_float = inertia_matrix(jmid, problem.kind)
@@ -288,7 +295,7 @@ def certify_branch_piece(problem: Problem, system: FloatSystem, pbox: list[Inter
     for i in range(n):
         for j in range(i):
             s_exact[i][j] = s_exact[j][i]
-    s_exact = _checked_branch_inertia(problem, ar, aff, jac, s_float, s_exact, improve)
+    s_exact = _checked_branch_inertia(problem, ar, form_ar, jac, s_float, s_exact, improve)
     return {"parameters": {p: [rational_text(lo), rational_text(hi)]
                            for p, (lo, hi) in zip(problem.params, pbox)},
             "centre": [rational_text(c) for c in centre],
@@ -300,7 +307,7 @@ def certify_branch_piece(problem: Problem, system: FloatSystem, pbox: list[Inter
             "inertia_matrix": [[rational_text(v) for v in row] for row in s_exact]}
 
 
-def _checked_branch_inertia(problem, ar, aff, jac, s_float, s_exact, improve=True):
+def _checked_branch_inertia(problem, ar, form_ar, jac, s_float, s_exact, improve=True):
     """Return an inertia matrix the checker accepts over the branch, or raise Undecided.
 
     First the midpoint's Lyapunov/Stein solution; then one improved to be definite at the
@@ -311,7 +318,7 @@ def _checked_branch_inertia(problem, ar, aff, jac, s_float, s_exact, improve=Tru
     def improved():  # a common Lyapunov matrix, only when the midpoint's solution fails
         centre = np.array([[float(v.c.mid()) for v in row] for row in jac])
         slopes = [np.array([[float(v.d[i].mid()) for v in row] for row in jac])
-                  for i in range(aff.k)]
+                  for i in range(form_ar.k)]
         vertices = [centre]
         for slope in slopes:
             if np.any(slope):
@@ -333,7 +340,7 @@ def _checked_branch_inertia(problem, ar, aff, jac, s_float, s_exact, improve=Tru
             continue
         try:
             with ar.active():
-                check_inertia(problem, aff, jac, s, counts[0], "piece")
+                check_inertia(problem, form_ar, jac, s, counts[0], "piece")
             return s
         except CertificateRejected as exc:
             reason = exc.reason
@@ -511,7 +518,7 @@ def _cover(model, problem, full, x0, precision, max_precision, max_pieces, first
 
 
 def _try_not_hyperbolic(model: Model, problem: Problem, x0: np.ndarray, attempt: Attempt):
-    """Prove a zero is not hyperbolic when it is exactly rational (proofs/FORMAT.md, obligation 6)."""
+    """Prove a zero is not hyperbolic when it is exactly rational (FORMAT.md, obligation 6)."""
     system = FloatSystem(model)
     try:
         x = newton(system, model.kind, problem.period, x0, iterations=400)

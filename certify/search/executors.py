@@ -229,25 +229,30 @@ def drive(job: Job, store, finished: set, workers: int = 1, scheduler: str | Non
                 if needs_split(task, result):
                     stack += reversed(child_tasks(job, task, result))
                     continue
-                records = cell_records(job, task, result, finished)
-                while True:  # a big block streams out in batches, memory stays flat
-                    batch = list(itertools.islice(records, BATCH))
-                    if not batch:
-                        break
-                    store.append(batch)
-                    for r in batch:
-                        stats.cells += 1
-                        if r["status"] == "certified":
-                            stats.certified += 1
-                        else:
-                            stats.undecided += 1
-                    done += len(batch)
-                    if progress is not None:
-                        progress(done, total, stats)
+                done = _store_cells(cell_records(job, task, result, finished), store, stats,
+                                    done, total, progress)
     finally:
         runner.shutdown()
         stats.seconds = time.monotonic() - start
     return stats
+
+
+def _store_cells(records, store, stats: Stats, done: int, total: int, progress) -> int:
+    """Append a finished block's cells in batches (memory stays flat); return cells done."""
+    while True:
+        batch = list(itertools.islice(records, BATCH))
+        if not batch:
+            return done
+        store.append(batch)
+        for r in batch:
+            stats.cells += 1
+            if r["status"] == "certified":
+                stats.certified += 1
+            else:
+                stats.undecided += 1
+        done += len(batch)
+        if progress is not None:
+            progress(done, total, stats)
 
 
 __all__ = ["Stats", "block_box", "drive", "executor"]

@@ -402,13 +402,7 @@ def scan(model: Model, region: dict[str, Interval] | None = None,
         tree = scanner.run()
         done = scanner.done
         if scanner.undecided and can_cut and time.monotonic() < deadline and done < max_boxes:
-            score = _movement(scanner, pbox, b)
-            if not any(score):
-                score = [float(r) for r in rel]
-            k = max(range(len(rel)), key=lambda i: score[i] if rel[i] > MIN_PIECE else -1.0)
-            lo, hi = pbox[k]
-            mid = (lo + hi) / 2
-            todo += [pbox[:k] + [(mid, hi)] + pbox[k + 1:], pbox[:k] + [(lo, mid)] + pbox[k + 1:]]
+            todo += _cut_parameters(scanner, pbox, b, rel)
             continue
         outcome = _finish(scanner, b, tree, pbox, problem.params)
         if outcome is not None:
@@ -427,6 +421,24 @@ def scan(model: Model, region: dict[str, Interval] | None = None,
             first_zeros = scanner.zeros
     result.boxes, result.seconds = done, time.monotonic() - start
     result.zeros = first_zeros or []
+    return _certified_count(model, result, pieces, b, arithmetics)
+
+
+def _cut_parameters(scanner: _Scanner, pbox: list[Interval], b: list[Interval],
+                    rel: list[Fraction]) -> list[list[Interval]]:
+    """Return the two halves of the parameter box, cut where the zeros move furthest."""
+    score = _movement(scanner, pbox, b)
+    if not any(score):
+        score = [float(r) for r in rel]
+    k = max(range(len(rel)), key=lambda i: score[i] if rel[i] > MIN_PIECE else -1.0)
+    lo, hi = pbox[k]
+    mid = (lo + hi) / 2
+    return [pbox[:k] + [(mid, hi)] + pbox[k + 1:], pbox[:k] + [(lo, mid)] + pbox[k + 1:]]
+
+
+def _certified_count(model: Model, result: ScanResult, pieces: list[dict], b: list[Interval],
+                     arithmetics: tuple[str, ...]) -> ScanResult:
+    """Write the count certificate of the pieces, check it, and fill in the result."""
     counts = {sum(1 for z in _inside_flags(p, b)) for p in pieces}
     if len(counts) > 1:
         result.reason = "count-varies"
