@@ -10,6 +10,8 @@
     python benchmarks/run.py sweep      100 x 100 Brusselator sweep vs stacked float Newton +
                                         eigvals at the cell centres; memory at 10^5 cells
     python benchmarks/run.py hostile    time to refuse each file of the invalid corpus
+    python benchmarks/run.py scale      certify time, ratio, certificate size and verify time
+                                        against n (SCALE_SIZES=10,20,40 by default)
     python benchmarks/run.py --help     the list of benchmarks
 
 Targets (issues): certification of Lorenz C+ at most 10x float Newton + eigvals; a sweep
@@ -314,6 +316,59 @@ def bench_hostile() -> None:
     print(f"  slowest of {len(rows)}: {max(rows)[0]:.3f} s (target < 1 s)")
 
 
+def brusselator_grid(cells: int, a: str = "2", b: str = "3", du: str = "1", dv: str = "8"):
+    """Return the Brusselator on a 1-D grid of `cells` cells with reflecting ends (n = 2 cells),
+    grid spacing 1, and a guess near the homogeneous state (a, b/a)."""
+    names, eqs = [], []
+    for i in range(cells):
+        left, right = max(i - 1, 0), min(i + 1, cells - 1)
+        u, v = f"u{i}", f"v{i}"
+        lap_u = f"(u{left} - 2*{u} + u{right})"
+        lap_v = f"(v{left} - 2*{v} + v{right})"
+        names += [u, v]
+        eqs += [f"a - (b + 1)*{u} + {u}**2*{v} + du*{lap_u}",
+                f"b*{u} - {u}**2*{v} + dv*{lap_v}"]
+    guess = {}
+    for i in range(cells):
+        guess[f"u{i}"], guess[f"v{i}"] = float(a), float(b) / float(a)
+    return make_model(names, eqs, {"a": a, "b": b, "du": du, "dv": dv}), guess
+
+
+def bench_scale() -> None:
+    """The curve in n: certify time, its ratio to float Newton + eigvals, certificate size, and
+    the checker's time (flint). Sizes from SCALE_SIZES (default 10,20,40; 100 takes minutes)."""
+    import json
+    import os
+
+    from certify import verify
+
+    sizes = [int(v) for v in os.environ.get("SCALE_SIZES", "10,20,40").split(",")]
+    print("scale: Brusselator on a 1-D grid (n = 2 cells), certify vs float Newton + eigvals")
+    for n in sizes:
+        model, guess = brusselator_grid(n // 2)
+        fs = FloatSystem(model)
+        x0 = np.array([guess[v] for v in model.variables])
+
+        def baseline():
+            x = newton(fs, "flow", 1, x0)
+            return np.linalg.eigvals(fs.dg(x))
+
+        t_fl = per_call(baseline, 5)
+        t = time.perf_counter()
+        r = equilibrium(model, [guess])[0]
+        t_ce = time.perf_counter() - t
+        size = len(json.dumps(r.certificate)) if r.certificate else 0
+        t = time.perf_counter()
+        if r.certificate:
+            verify(r.certificate, "flint")
+        t_ve = time.perf_counter() - t
+        print(f"  n = {model.dimension:4d}  {r.verdict:10s} certify {t_ce:8.2f} s  float "
+              f"{t_fl * 1e3:7.2f} ms  ratio {t_ce / t_fl:9.0f}x  certificate {size / 1e6:6.2f} MB"
+              f"  verify (flint) {t_ve:6.2f} s  "
+              + (f"unstable dimension {r.unstable_dimension}" if r.certificate else
+                 f"({r.reason}: {r.message[:60]})"))
+
+
 BENCHMARKS = {"sweep": (bench_sweep, "100 x 100 Brusselator sweep vs stacked float Newton + "
                                    "eigvals; memory at 10^5 cells (runs first: it forks)"),
               "eval": (bench_eval, "interval f and J against numpy floats"),
@@ -323,7 +378,9 @@ BENCHMARKS = {"sweep": (bench_sweep, "100 x 100 Brusselator sweep vs stacked flo
               "scan": (bench_scan, "certified counts vs multi-start float Newton"),
               "branches": (bench_branches, "one-piece widths and sweep proofs: plain vs "
                                            "first-order"),
-              "hostile": (bench_hostile, "time to refuse each file of the invalid corpus")}
+              "hostile": (bench_hostile, "time to refuse each file of the invalid corpus"),
+              "scale": (bench_scale, "the curve in n (set SCALE_SIZES=10,20,...): certify vs "
+                                     "float, certificate size, verify time")}
 
 
 def main(argv: list[str] | None = None) -> int:
