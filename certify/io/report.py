@@ -6,7 +6,7 @@ from __future__ import annotations
 from rich.console import Console
 from rich.table import Table
 
-from ..model.numbers import bounds_texts
+from ..model.numbers import exact_texts
 from ..model import Model
 from ..vocabulary import axis_word, plural, type_word
 from ..model.decimal import bounds_text, interval_text, membership_text, value_text
@@ -25,12 +25,12 @@ def model_json(model: Model) -> dict:
     jac = jacobian_sympy(model)
     return {"model": model.source, "name": model.name, "kind": model.kind,
             "variables": list(model.variables),
-            "parameters": {p: bounds_texts(lo, hi) for p, (lo, hi) in model.parameters.items()},
+            "parameters": exact_texts(model.parameters),
             "equations": dict(model.equations),
             "jacobian": [[str(jac[i, j]) for j in range(model.dimension)]
                          for i in range(model.dimension)],
             "guesses": list(model.guesses),
-            "region": ({v: bounds_texts(lo, hi) for v, (lo, hi) in model.region.items()}
+            "region": (exact_texts(model.region)
                        if model.region else None)}
 
 
@@ -147,7 +147,7 @@ def results_json(model: Model, results: list) -> dict:
             "verdict": r.verdict, "reason": r.reason, "message": r.message or None,
             "kind": r.kind, "period": r.period, "type": r.type,
             "stable_dimension": r.stable_dimension, "unstable_dimension": r.unstable_dimension,
-            "parameters": {p: bounds_texts(lo, hi) for p, (lo, hi) in r.parameters.items()},
+            "parameters": exact_texts(r.parameters),
             "guess": r.guess,
             "enclosure": ({v: list(bounds_text(*r.enclosure[v])) for v in model.variables}
                           if r.enclosure else None),
@@ -299,9 +299,9 @@ def scan_json(result) -> dict:
                                     for v, (lo, hi) in zip(model.variables, box)}})
     return {"model": model.source, "count": result.count, "reason": result.reason,
             "message": result.message or None,
-            "region": {v: bounds_texts(lo, hi) for v, (lo, hi) in result.region.items()},
-            "parameters": {p: bounds_texts(lo, hi) for p, (lo, hi) in model.parameters.items()},
+            "region": exact_texts(result.region),
+            "parameters": exact_texts(model.parameters),
             "equilibria": zeros, "pieces": result.pieces, "boxes": result.boxes,
-            "undecided_boxes": [{v: bounds_texts(lo, hi) for v, (lo, hi) in
-                                 zip(model.variables, box)} for box in result.undecided_boxes],
+            "undecided_boxes": [exact_texts(dict(zip(model.variables, box)))
+                                for box in result.undecided_boxes],
             "certificate": result.certificate_path}

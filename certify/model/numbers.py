@@ -29,13 +29,11 @@ def rational_text(q: Fraction) -> str:
     return str(q.numerator) if q.denominator == 1 else f"{q.numerator}/{q.denominator}"
 
 
-def bounds_texts(lo: Fraction, hi: Fraction) -> list[str]:
-    """Return [lo, hi] as the exact texts of a certificate or a results file."""
-    return [rational_text(lo), rational_text(hi)]
-
-
 def exact_texts(value):
-    """Return a rational, or nested lists (or tuples) of them, as the same nesting of texts."""
+    """Return a rational, or lists, tuples and dicts of them (nested), as the same nesting of
+    exact texts: an interval (lo, hi) becomes [lo, hi], a dict keeps its keys."""
+    if isinstance(value, dict):
+        return {k: exact_texts(v) for k, v in value.items()}
     if isinstance(value, (list, tuple)):
         return [exact_texts(v) for v in value]
     return rational_text(value)

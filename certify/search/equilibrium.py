@@ -23,7 +23,7 @@ from ..check.forms import branch_krawczyk
 from ..check.inertia import check_inertia
 from ..check.reader import FORMAT, VERSION, CertificateRejected, Problem, ZeroHint
 from ..check.verdict import Verified, check
-from ..model.numbers import rational_text
+from ..model.numbers import exact_texts, rational_text
 from ..model import Interval, Model
 from ..model.symbolic import FloatSystem
 from ..settings import (DEFAULT_MAX_PRECISION, DEFAULT_PRECISION, INFLATION_ROUNDS, MAX_PIECES,
@@ -179,12 +179,8 @@ def certify_piece(problem: Problem, pbox: list[Interval], x: np.ndarray, prec: i
     except CertificateRejected as exc:
         raise Undecided("near-axis", "hyperbolicity could not be proved over the enclosure "
                         f"({exc.reason})") from None
-    return {"parameters": {p: [rational_text(lo), rational_text(hi)]
-                           for p, (lo, hi) in zip(problem.params, pbox)},
-            "centre": [rational_text(c) for c in centre],
-            "box": [[rational_text(lo), rational_text(hi)] for lo, hi in box],
-            "preconditioner": [[rational_text(v) for v in row] for row in precond],
-            "inertia_matrix": [[rational_text(v) for v in row] for row in s]}
+    return exact_texts({"parameters": dict(zip(problem.params, pbox)), "centre": centre,
+                        "box": box, "preconditioner": precond, "inertia_matrix": s})
 
 
 def branch_enclosure(problem: Problem, system: FloatSystem, pbox: list[Interval],
@@ -296,15 +292,9 @@ def certify_branch_piece(problem: Problem, system: FloatSystem, pbox: list[Inter
         for j in range(i):
             s_exact[i][j] = s_exact[j][i]
     s_exact = _checked_branch_inertia(problem, ar, form_ar, jac, s_float, s_exact, improve)
-    return {"parameters": {p: [rational_text(lo), rational_text(hi)]
-                           for p, (lo, hi) in zip(problem.params, pbox)},
-            "centre": [rational_text(c) for c in centre],
-            "box": [[rational_text(lo), rational_text(hi)] for lo, hi in box],
-            "sensitivity": [[rational_text(v) for v in row] for row in sens],
-            "preconditioner": [[rational_text(v) for v in row] for row in precond],
-            "preconditioner_slopes": [[[rational_text(v) for v in row] for row in m]
-                                      for m in slopes_exact],
-            "inertia_matrix": [[rational_text(v) for v in row] for row in s_exact]}
+    return exact_texts({"parameters": dict(zip(problem.params, pbox)), "centre": centre,
+                        "box": box, "sensitivity": sens, "preconditioner": precond,
+                        "preconditioner_slopes": slopes_exact, "inertia_matrix": s_exact})
 
 
 def _checked_branch_inertia(problem, ar, form_ar, jac, s_float, s_exact, improve=True):
@@ -447,8 +437,7 @@ def certificate(model: Model, period: int, precision: int, claim: dict,
     cert = {"format": FORMAT, "version": VERSION, "tool": f"certify {__version__}",
             "model": {"name": model.name, "kind": model.kind,
                       "variables": list(model.variables),
-                      "parameters": {p: [rational_text(lo), rational_text(hi)] for p, (lo, hi) in
-                                     model.parameters.items()},
+                      "parameters": exact_texts(model.parameters),
                       "equations": dict(model.equations)},
             "period": period, "precision": precision, "claim": claim}
     if pieces:

@@ -16,8 +16,9 @@ import time
 from dataclasses import dataclass, field
 
 from ..model.decimal import bounds_text, honest_digits
+from ..model.numbers import exact_texts
 from ..vocabulary import type_word
-from .sweep import Job, Task, block_box, cells_of, child_tasks, interval_json, n_cells, \
+from .sweep import Job, Task, block_box, cells_of, child_tasks, n_cells, \
     needs_split, run_block
 
 BATCH = 2048  # result lines per write
@@ -144,8 +145,7 @@ def _publish(job: Job, store, task: Task, result: dict) -> None:
             if isinstance(part.get("certificate"), dict):
                 part["certificate"] = store.certificate(
                     _name(task.block, prefix) + f"-part{m + 1}", part["certificate"])
-            part["parameters"] = {p: interval_json(lo, hi)
-                                  for p, (lo, hi) in part["parameters"].items()}
+            part["parameters"] = exact_texts(part["parameters"])
             _describe(job, part)
         _describe(job, found)
 
@@ -169,7 +169,7 @@ def cell_records(job: Job, task: Task, result: dict, finished: set):
     for cell in cells_of(task.block):
         if cell in finished:
             continue
-        params = {a.name: interval_json(a.edge(i), a.edge(i + 1)) for a, i in zip(job.axes, cell)}
+        params = {a.name: exact_texts((a.edge(i), a.edge(i + 1))) for a, i in zip(job.axes, cell)}
         outcomes = result["outcomes"]
         ok = all(o["verdict"] != "undecided" for o in outcomes)
         record = {"cell": list(cell), "parameters": params,

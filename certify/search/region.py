@@ -23,7 +23,7 @@ from ..check.count import inside_for_every_p, widened
 from ..check.forms import check_enclosure, spreads
 from ..check.reader import CertificateRejected, ZeroHint, read_zero
 from ..check.verdict import check
-from ..model.numbers import bounds_texts, exact_texts, rational_text
+from ..model.numbers import exact_texts, rational_text
 from ..model import Interval, Model
 from ..model.symbolic import FloatSystem
 from .equilibrium import (Undecided, _inflate, branch_enclosure, certificate,
@@ -414,8 +414,7 @@ def scan(model: Model, region: dict[str, Interval] | None = None,
                     f"{p}=[{float(lo):.6g}, {float(hi):.6g}]"
                     for p, (lo, hi) in zip(problem.params, pbox)) + ")"
             return result
-        pieces.append({"parameters": {p: bounds_texts(lo, hi) for p, (lo, hi) in
-                                      zip(problem.params, pbox)},
+        pieces.append({"parameters": exact_texts(dict(zip(problem.params, pbox))),
                        "zeros": [z.entry for z in scanner.zeros], "tree": tree})
         if first_zeros is None:
             first_zeros = scanner.zeros
@@ -448,7 +447,7 @@ def _certified_count(model: Model, result: ScanResult, pieces: list[dict], b: li
     dims = _dims(pieces[0], b)
     claim = {"verdict": "count", "count": len(dims), "stable_dimensions": dims}
     cert = certificate(model, 1, 53, claim, [])
-    cert["region"] = {v: bounds_texts(lo, hi) for v, (lo, hi) in zip(model.variables, b)}
+    cert["region"] = exact_texts(dict(zip(model.variables, b)))
     cert["pieces"] = pieces
     try:
         for name in arithmetics:

@@ -24,7 +24,7 @@ import numpy as np
 
 from ..check import check
 from ..check.reader import CertificateRejected
-from ..model.numbers import rational_text
+from ..model.numbers import exact_texts, rational_text
 from ..model import Interval, Model
 from ..model.symbolic import FloatSystem
 
@@ -103,11 +103,6 @@ def split(block: Block) -> tuple[Block, Block]:
     i0, i1 = block[k]
     mid = (i0 + i1) // 2
     return (block[:k] + ((i0, mid),) + block[k + 1:], block[:k] + ((mid, i1),) + block[k + 1:])
-
-
-def interval_json(lo: Fraction, hi: Fraction) -> list[str]:
-    """Return an exact interval as two rational strings."""
-    return [rational_text(lo), rational_text(hi)]
 
 
 def _model_for(job: Job, box: dict[str, Interval]) -> Model:
@@ -194,7 +189,7 @@ def _attempt_guess(job: Job, box: dict[str, Interval], start, improve: bool = Tr
                  for i in range(len(model.variables))]
     return {"verdict": "hyperbolic", "stable_dimension": claim["stable_dimension"],
             "unstable_dimension": claim["unstable_dimension"],
-            "enclosure": [interval_json(lo, hi) for lo, hi in enclosure],
+            "enclosure": exact_texts(enclosure),
             "certificate": attempt.certificate}
 
 
