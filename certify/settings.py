@@ -1,4 +1,4 @@
-"""Every default and limit of the producers, in one module with no heavy imports.
+"""Every default and limit of the producers, in one module without numpy, scipy or sympy.
 
 The command line, the Python surface and the search read them from here, so a default is
 written once. The checker's own bounds live in certify/check (proofs/FORMAT.md, "Bounds").
@@ -6,16 +6,17 @@ written once. The checker's own bounds live in certify/check (proofs/FORMAT.md, 
 
 from fractions import Fraction
 
+# The ranges a user may ask for are the checker's own, so they are not written twice.
+from .check.reader import MAX_PERIOD, MAX_PRECISION, MIN_PRECISION  # noqa: F401
+
 # Working precision of one certificate, in bits.
 DEFAULT_PRECISION = 53  # bits to start at
 DEFAULT_MAX_PRECISION = 424  # highest precision tried before answering undecided
-MIN_PRECISION, MAX_PRECISION = 30, 100_000  # the range a user may ask for
 
 # One equilibrium over a parameter box.
 MIN_PIECE_FRACTION = Fraction(1, 2**16)  # smallest piece width, relative to the requested box
 MAX_PIECES = 256  # pieces of one parameter box
 INFLATION_ROUNDS = 20  # epsilon-inflation steps before no-enclosure
-MAX_PERIOD = 64  # longest period of a periodic point of a map
 
 # Counting every equilibrium in a region.
 SCAN_MAX_BOXES = 200_000  # boxes one scan may examine

@@ -60,7 +60,8 @@ def test_lorenz_origin_and_c_plus_at_rho_28():
 def test_lorenz_parameter_boxes_and_the_hopf_value():
     # Hopf value rho_H = 470/19 (Lorenz 1963, tests/published.py). Below it C+ is a sink,
     # above it unstable dimension 2.
-    assert LORENZ_HOPF_RHO.value == F(470, 19)
+    sigma, beta = F(10), F(8, 3)
+    assert LORENZ_HOPF_RHO.value == sigma * (sigma + beta + 3) / (sigma - beta - 1)
     c_plus = {"x": 7, "y": 7, "z": 21}
     sink = only(equilibrium(lorenz(["20", "24"]), [c_plus]))
     assert (sink.verdict, sink.type, sink.unstable_dimension) == ("hyperbolic", "sink", 0)

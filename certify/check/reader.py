@@ -26,7 +26,8 @@ MAX_BYTES = 50_000_000
 MAX_DIMENSION = 200
 MAX_PIECES = 100_000
 MAX_NUMBER_CHARS = 4000
-MAX_PRECISION = 100_000
+MIN_PRECISION, MAX_PRECISION = 30, 100_000  # bits
+MAX_PERIOD = 64
 MAX_PRECISION_WORK = 40_000  # n x precision
 MAX_FUNCTION_WORK = 2**28  # elementary calls x period x precision^2
 BRANCH_KEYS = frozenset({"sensitivity", "preconditioner_slopes"})
@@ -214,10 +215,10 @@ def read_certificate(data: dict) -> Certificate:
         if type(data[key]) is not type(want) or data[key] != want:
             raise CertificateRejected("version", key, f"found {data[key]!r}, expected {want!r}")
     problem, variables = _read_model(data["model"])
-    period = integer(data.get("period", 1), 1, 64, "period")
+    period = integer(data.get("period", 1), 1, MAX_PERIOD, "period")
     reject_if(problem.kind == "flow" and period != 1, "malformed", "period", "a flow has no period")
     problem.period = period
-    precision = integer(data["precision"], 30, MAX_PRECISION, "precision")
+    precision = integer(data["precision"], MIN_PRECISION, MAX_PRECISION, "precision")
     _check_budget(problem.tape, len(variables), period, precision)
     claim = data["claim"]
     reject_if(not isinstance(claim, dict) or claim.get("verdict") not in VERDICTS, "malformed",
