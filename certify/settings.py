@@ -17,6 +17,7 @@ DEFAULT_MAX_PRECISION = 424  # highest precision tried before answering undecide
 MIN_PIECE_FRACTION = Fraction(1, 2**16)  # smallest piece width, relative to the requested box
 MAX_PIECES = 256  # pieces of one parameter box
 INFLATION_ROUNDS = 20  # epsilon-inflation steps before no-enclosure
+HINT_DIMENSION = 9  # from this many variables on, definiteness is proved from a written hint
 
 # Counting every equilibrium in a region.
 SCAN_MAX_BOXES = 200_000  # boxes one scan may examine

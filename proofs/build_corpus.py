@@ -107,12 +107,12 @@ def tampered(valid: dict[str, dict]) -> list[tuple[str, object, str, str]]:
     edit("box-shrunk", saddle, shrink, "krawczyk", "a box far inside its Krawczyk image")
     edit("claim-sink", saddle, lambda d: d["claim"].update(stable_dimension=2,
                                                            unstable_dimension=0),
-         "inertia", "a saddle claimed to be a sink")
-    edit("inertia-negated", saddle, lambda d: d["pieces"][0].update(inertia_matrix=[
-        [_neg(x) for x in row] for row in d["pieces"][0]["inertia_matrix"]]),
-        "not-definite", "the inertia matrix negated")
-    edit("inertia-asymmetric", saddle, lambda d: d["pieces"][0]["inertia_matrix"][0].__setitem__(
-        1, "12345/1024"), "inertia", "an inertia matrix that is not symmetric")
+         "not-definite", "a saddle claimed to be a sink")
+    edit("inertia-factor-swapped", saddle, lambda d: d["pieces"][0].update(inertia_factor=[
+        row[::-1] for row in d["pieces"][0]["inertia_factor"]]),
+        "not-definite", "the columns of the inertia factor swapped (S negated)")
+    edit("inertia-factor-zero", saddle, lambda d: d["pieces"][0].update(inertia_factor=[
+        ["0", "0"], ["0", "0"]]), "not-definite", "an inertia factor of zeros (S = 0)")
     edit("centre-outside", saddle, lambda d: d["pieces"][0]["centre"].__setitem__(0, "100"),
          "krawczyk", "the centre outside the box")
     edit("parameter-widened", saddle, lambda d: d["model"]["parameters"].__setitem__(
@@ -123,7 +123,9 @@ def tampered(valid: dict[str, dict]) -> list[tuple[str, object, str, str]]:
         "u", "__import__('os').system('true')"), "model", "an import in an equation")
     edit("equation-tower", saddle, lambda d: d["model"]["equations"].__setitem__(
         "u", "10**10**10"), "model", "a power tower in an equation")
-    edit("version-2", saddle, lambda d: d.__setitem__("version", 2), "version", "unknown version")
+    edit("version-3", saddle, lambda d: d.__setitem__("version", 3), "version", "unknown version")
+    edit("version-1", saddle, lambda d: d.__setitem__("version", 1), "version",
+         "a version-1 certificate (inertia from an exact matrix, no longer read)")
     edit("no-version", saddle, lambda d: d.pop("version"), "malformed", "version missing")
     edit("number-as-float", saddle, lambda d: d["pieces"][0]["centre"].__setitem__(0, 1.25),
          "malformed", "a binary float where an exact number belongs")
@@ -203,7 +205,7 @@ def tampered(valid: dict[str, dict]) -> list[tuple[str, object, str, str]]:
                             ("comment", "a / (1 + v**n) - k*u # + 1", "a comment")]:
         edit(f"equation-{name}", saddle, lambda d, t=text: d["model"]["equations"].__setitem__(
             "u", t), "model", f"{why} in an equation")
-    edit("version-float", saddle, lambda d: d.__setitem__("version", 1.0), "version",
+    edit("version-float", saddle, lambda d: d.__setitem__("version", 2.0), "version",
          "the version written as a float")
     edit("version-true", saddle, lambda d: d.__setitem__("version", True), "version",
          "the version written as true")
@@ -224,15 +226,6 @@ def tampered(valid: dict[str, dict]) -> list[tuple[str, object, str, str]]:
     edit("precision-wide", saddle, lambda d: d.__setitem__("precision", 100000), "budget",
          "100,000 bits for two variables")
 
-    def huge_inertia(doc):  # each entry moved by 1/(7^2000 + k): still definite, still symmetric
-        s = doc["pieces"][0]["inertia_matrix"]
-        for i in range(3):
-            for j in range(3):
-                q = Fraction(s[i][j]) + Fraction(1, 7**2000 + 2 * (3 * min(i, j) + max(i, j)))
-                s[i][j] = f"{q.numerator}/{q.denominator}"
-
-    edit("inertia-huge-denominators", valid["lorenz-rho28-2"], huge_inertia, "budget",
-         "an inertia matrix with six different 1,700-digit denominators")
     edit("huge-rational", saddle, lambda d: d["pieces"][0]["centre"].__setitem__(
         0, "1" * 5000), "malformed", "a number with 5,000 digits")
     edit("equation-nested-1e5", saddle, lambda d: d["model"]["equations"].__setitem__(
@@ -267,7 +260,7 @@ def tampered(valid: dict[str, dict]) -> list[tuple[str, object, str, str]]:
          "a travelling zero's form dropped: its box alone does not hold the zero for every K")
     out.append(("not-json", "this is not JSON {", "malformed", "not JSON"))
     out.append(("deep-nesting", "[" * 100000 + "]" * 100000, "malformed", "nesting 10^5 deep"))
-    out.append(("huge-number", '{"format": "certify-certificate", "version": 1, "precision": 5'
+    out.append(("huge-number", '{"format": "certify-certificate", "version": 2, "precision": 5'
                 + "0" * 100000 + "}", "malformed", "a number with 10^5 digits"))
     return out
 

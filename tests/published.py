@@ -104,6 +104,38 @@ def brusselator_hopf_b(a) -> F:
     return 1 + F(a) ** 2
 
 
+def brusselator_grid_model(cells: int, a, b, du, dv):
+    """Return the Brusselator kinetics (Prigogine & Lefever 1968) on a 1-D grid of `cells` cells
+    with spacing 1 and reflecting ends (the ends' missing neighbour is the cell itself: common
+    practice), n = 2 cells, and a guess at the homogeneous state (a, b/a)."""
+    names, eqs, guess = [], [], {}
+    for i in range(cells):
+        left, right = max(i - 1, 0), min(i + 1, cells - 1)
+        names += [f"u{i}", f"v{i}"]
+        eqs += [f"a - (b + 1)*u{i} + u{i}**2*v{i} + du*(u{left} - 2*u{i} + u{right})",
+                f"b*u{i} - u{i}**2*v{i} + dv*(v{left} - 2*v{i} + v{right})"]
+        guess[f"u{i}"], guess[f"v{i}"] = float(F(a)) * 1.001, float(F(b) / F(a)) * 0.999
+    params = {"a": str(a), "b": str(b), "du": str(du), "dv": str(dv)}
+    return make_model(names, eqs, params, name=f"brusselator-grid-{cells}"), guess
+
+
+def brusselator_grid_unstable_dimension(cells: int, a, b, du, dv) -> int:
+    """Return the number of eigenvalues with Re > 0 at the homogeneous state (a, b/a).
+
+    The Jacobian is block-diagonal in the discrete cosine modes k = 0 .. N-1, with eigenvalues
+    mu_k = 4 sin^2(k pi / 2N) of the negated reflecting-end Laplacian (from memory; the tests
+    confirm it against the eigenvalues of the assembled matrix), and on mode k the 2 x 2 block
+    [[b - 1 - du mu_k, a^2], [-b, -a^2 - dv mu_k]] (Prigogine & Lefever 1968 kinetics).
+    """
+    a, b, du, dv = (mpmath.mpf(F(v).numerator) / F(v).denominator for v in (a, b, du, dv))
+    count = 0
+    for k in range(cells):
+        mu = 4 * mpmath.sin(k * mpmath.pi / (2 * cells)) ** 2
+        block = mpmath.matrix([[b - 1 - du * mu, a * a], [-b, -a * a - dv * mu]])
+        count += sum(1 for ev in mpmath.eig(block)[0] if mpmath.re(ev) > 0)
+    return count
+
+
 # ---------------------------------------------------------------- logistic map
 
 LOGISTIC_SOURCE = ("R. M. May, \"Simple mathematical models with very complicated dynamics\", "

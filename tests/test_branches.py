@@ -183,5 +183,6 @@ def test_branch_refusals():
     nan = aff.form(arb("nan"), [base.const(F(0))])
     problem = reader.Problem(None, "flow", 1, [], {})
     with pytest.raises(CertificateRejected) as info:
-        inertia.check_inertia(problem, aff, [[nan]], [[F(1)]], 1, "here")
+        inertia.check_inertia(problem, aff, [[nan]], reader.ZeroHint(
+            [], [], [], None, None, inertia_factor=[[F(1)]]), 1, "here")
     assert info.value.code == "domain"

@@ -54,13 +54,15 @@ def test_claimed_inertia_changed_is_rejected(saddle):
         bad["claim"]["stable_dimension"], bad["claim"]["unstable_dimension"] = stable, unstable
         with pytest.raises(CertificateRejected) as info:
             check(bad)
-        assert info.value.code == "inertia"
+        # S = F D F^T takes its signs D from the claimed split, so the form is not definite.
+        assert info.value.code == "not-definite"
+        assert f"{stable} entries +1 (the claimed stable dimension)" in info.value.reason
 
 
-def test_inertia_matrix_negated_is_rejected(saddle):
+def test_inertia_factor_columns_swapped_is_rejected(saddle):
     bad = copy.deepcopy(saddle)
-    s = bad["pieces"][0]["inertia_matrix"]
-    bad["pieces"][0]["inertia_matrix"] = [[_neg(x) for x in row] for row in s]
+    f = bad["pieces"][0]["inertia_factor"]
+    bad["pieces"][0]["inertia_factor"] = [row[::-1] for row in f]  # S becomes -S
     with pytest.raises(CertificateRejected) as info:
         check(bad)
     assert info.value.code == "not-definite"
@@ -98,7 +100,7 @@ def test_every_single_nudge_is_rejected_or_still_proves(saddle):
     """Nudge each number of the piece by a tiny step; accepted mutants must re-verify the claim."""
     piece = saddle["pieces"][0]
     tried = rejected = 0
-    for key in ("box", "centre", "preconditioner", "inertia_matrix"):
+    for key in ("box", "centre", "preconditioner", "inertia_factor"):
         flat = piece[key]
         positions = ([(i, j) for i in range(len(flat)) for j in range(len(flat[i]))]
                      if isinstance(flat[0], list) else [(i, None) for i in range(len(flat))])
@@ -125,8 +127,8 @@ def test_every_single_nudge_is_rejected_or_still_proves(saddle):
               "centre": lambda p: p["centre"].__setitem__(0, str(F(p["box"][0][1]) + 1)),
               "preconditioner": lambda p: p.__setitem__("preconditioner",
                                                         [["0", "0"], ["0", "0"]]),
-              "inertia_matrix": lambda p: p.__setitem__("inertia_matrix", [
-                  [str(-F(v)) for v in row] for row in p["inertia_matrix"]])}
+              "inertia_factor": lambda p: p.__setitem__("inertia_factor", [
+                  row[::-1] for row in p["inertia_factor"]])}
     for key, edit in coarse.items():
         bad = copy.deepcopy(saddle)
         edit(bad["pieces"][0])
@@ -136,7 +138,8 @@ def test_every_single_nudge_is_rejected_or_still_proves(saddle):
 
 @pytest.mark.parametrize("mutate, code", [
     (lambda c: c.pop("claim"), "malformed"),
-    (lambda c: c.__setitem__("version", 2), "version"),
+    (lambda c: c.__setitem__("version", 3), "version"),
+    (lambda c: c.__setitem__("version", 1), "version"),
     (lambda c: c["pieces"][0].__setitem__("box", c["pieces"][0]["box"][:1]), "malformed"),
     (lambda c: c["pieces"][0]["centre"].__setitem__(0, 1.5), "malformed"),
     (lambda c: c["pieces"][0]["centre"].__setitem__(0, "1e5"), "malformed"),
@@ -168,7 +171,7 @@ def test_verify_command_line(saddle, tmp_path):
     assert proc.returncode == 1
     lines = proc.stdout.strip().splitlines()
     assert "VERIFIED" in lines[0]
-    assert "REJECTED: inertia" in lines[1] and "REJECTED: malformed" in lines[2]
+    assert "REJECTED: not-definite" in lines[1] and "REJECTED: malformed" in lines[2]
     assert "Traceback" not in proc.stderr
 
 

@@ -15,7 +15,7 @@ from .conftest import run_cli
 PROOFS = Path(__file__).resolve().parent.parent / "proofs"
 VALID = sorted((PROOFS / "valid").glob("*.cert.json"))
 MANIFEST = json.loads((PROOFS / "invalid" / "MANIFEST.json").read_text())
-SCHEMA = json.loads((PROOFS / "certificate-v1.schema.json").read_text())
+SCHEMA = json.loads((PROOFS / "certificate-v2.schema.json").read_text())
 
 
 def test_corpus_is_complete():

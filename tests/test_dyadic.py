@@ -39,7 +39,10 @@ def test_functions_contain_the_100_digit_values(fname, lo, width, t, prec):
         assert _mp(lo_b) <= v <= _mp(hi_b), (fname, lo, hi, x)
     if width == 0:  # a point: the enclosure is a few units in the last place wide
         # the argument itself is rounded to prec bits, so allow for its condition number
-        scale = 1 + abs(lo)
+        # |x f'(x)| / (1 + |f(x)|) (large for tan near a pole)
+        f = getattr(mpmath, fname)
+        slope = abs(mpmath.diff(f, _mp(lo))) / (1 + abs(f(_mp(lo))))
+        scale = (1 + abs(lo)) * (1 + F(str(mpmath.nstr(slope, 15))))
         assert hi_b - lo_b <= (abs(hi_b) + 1) * scale * F(1, 2 ** (prec - 6))
 
 

@@ -6,7 +6,8 @@ from fractions import Fraction as F
 
 import sympy as sp
 
-from certify.check import exact
+from certify.check import exact, inertia
+from certify.check.matrices import MidRad
 
 from .published import LORENZ_HOPF_RHO, lorenz_c_plus_charpoly
 
@@ -15,23 +16,37 @@ def _m(rows):
     return [[F(x) for x in row] for row in rows]
 
 
+def _family(t):
+    centre = _m([[2, 1], [1, 2]])
+    return MidRad.from_bounds([[c - t for c in row] for row in centre],
+                              [[c + t for c in row] for row in centre], 60)
+
+
 def test_rohn_midpoint_radius_test():
     # Computed by hand: A_c = [[2, 1], [1, 2]], Delta = t * ones: t = 0.4 is certified
     # positive definite; t = 0.5 is the equality case, where the family holds a singular member.
-    centre = _m([[2, 1], [1, 2]])
     for t, expected in [(F(2, 5), True), (F(1, 2), False)]:
-        lo = [[c - t for c in row] for row in centre]
-        hi = [[c + t for c in row] for row in centre]
-        assert exact.interval_positive_definite(lo, hi) is expected
+        assert inertia.exact_definite(_family(t)) is expected
 
 
-def test_inertia_against_sympy_eigenvalues():
-    a = _m([[2, 3, 1], [3, -1, 0], [1, 0, -4]])
-    ev = sp.Matrix(a).eigenvals()
-    pos = sum(m for v, m in ev.items() if sp.re(sp.N(v)) > 0)
-    assert exact.inertia(a) == (pos, 3 - pos)
-    assert exact.inertia(_m([[0, 1], [1, 0]])) == (1, 1)  # no 1x1 pivot: a congruence first
-    assert exact.inertia(_m([[0, 0, 1], [0, 0, 0], [1, 0, 0]])) is None  # singular: refused
+def test_definiteness_hint():
+    # Computed by hand: with c = 1 and L = [[1, 0], [1, 1/2]], A_c - c I - L L^T =
+    # [[0, 0], [0, -1/4]]; with the radius t the row sums of |E| are 2t and 1/4 + 2t, below
+    # c = 1 iff t < 3/8 (the equality case t = 3/8 is refused).
+    lower = [[F(1)], [F(1), F(1, 2)]]
+    assert inertia.hint_definite(_family(F(1, 3)), lower, F(1), 60)
+    assert not inertia.hint_definite(_family(F(3, 8)), lower, F(1), 60)
+    zero = [[F(0)], [F(0), F(0)]]  # L = 0: rows |2 - c| + 1, below c iff c > 3/2
+    assert inertia.hint_definite(_family(F(0)), zero, F(2), 60)
+    assert not inertia.hint_definite(_family(F(0)), zero, F(3, 2), 60)
+
+
+def test_integer_definiteness_against_sympy_eigenvalues():
+    for rows in ([[2, 3, 1], [3, -1, 0], [1, 0, -4]], [[5, 2, 1], [2, 4, 1], [1, 1, 3]],
+                 [[1, 2], [2, 4]], [[4, -2], [-2, 1]]):
+        ev = sp.Matrix(rows).eigenvals()
+        expected = all(sp.re(sp.N(v)) > 0 for v in ev)  # symmetric: real eigenvalues
+        assert exact.positive_definite_integers(rows) is expected
 
 
 def test_charpoly_against_sympy():

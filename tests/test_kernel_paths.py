@@ -99,7 +99,9 @@ def test_exact_arithmetic():
 
 
 def test_exact_layer_pivots_and_repeated_roots():
-    assert exact.inertia([[F(0), F(1), F(0)], [F(1), F(2), F(0)], [F(0), F(0), F(3)]]) == (2, 1)
+    assert not exact.positive_definite_integers([[0, 1], [1, 0]])  # a zero first pivot
+    assert not exact.positive_definite_integers([[2, 1, 0], [1, 2, 3], [0, 3, 1]])  # 2 3 -13
+    assert exact.positive_definite_integers([[2, 1, 0], [1, 2, 1], [0, 1, 2]])
     assert exact.has_positive_root([F(1), F(-2), F(1)])  # (s - 1)^2: Sturm ends early
 
 
@@ -139,8 +141,9 @@ def _mutated(change):
     (lambda d: d.__setitem__("format", "other"), "version"),
     (lambda d: d["pieces"][0]["box"].__setitem__(0, ["2", "1"]), "malformed"),
     (lambda d: d["pieces"][0]["parameters"].__setitem__("a", ["3", "3"]), "tiling"),
-    (lambda d: d["pieces"][0].__setitem__("inertia_matrix", [["1", "0"], ["0", "1"]]),
+    (lambda d: d["pieces"][0].__setitem__("inertia_factor", [["0", "0"], ["0", "0"]]),
      "not-definite"),
+    (lambda d: d["pieces"][0].__setitem__("definiteness_shift", "1"), "malformed"),
     (lambda d: d.__setitem__("region", {"junk": 1}), "malformed"),
     (lambda d: d.__setitem__("note", "trust me"), "malformed"),
     (lambda d: d.__setitem__("tool", 7), "malformed"),
@@ -177,12 +180,26 @@ def test_tiling_of_a_two_parameter_box():
         tiling.check_tiling(outer, [[(F(0), F(2)), (F(0), F(1)), (F(4), F(4))]])
 
 
-def test_a_lyapunov_matrix_without_1x1_pivots_is_accepted():
-    # For the chemostat saddle, J ~ [[-1, -c], [-c, -1]] with c > 1, and S = [[0, 1], [1, 0]]
-    # makes -(J^T S + S J) = 2 [[c, 1], [1, c]] positive definite: inertia (1, 1), a saddle.
-    doc = _mutated(lambda d: d["pieces"][0].__setitem__("inertia_matrix", [["0", "1"],
-                                                                            ["1", "0"]]))
+def test_exact_definiteness_over_its_size_bound_is_refused():
+    # At 8,000 bits the integers of the exact test (about 3 x 8,064 bits for two variables) are
+    # over the elimination bound: refused as a budget, never computed.
+    with pytest.raises(CertificateRejected) as info:
+        check(_mutated(lambda d: d.__setitem__("precision", 8000)))
+    assert info.value.code == "budget" and "inertia_factor" in info.value.where
+
+
+def test_a_hand_made_inertia_factor_is_accepted():
+    # For the chemostat saddle, J ~ [[-1, -c], [-c, -1]] with c > 1. F = [[1, 1], [1, -1]] with
+    # D = diag(1, -1) gives S = F D F^T = [[0, 2], [2, 0]] and -(J^T S + S J) = 4 [[c, 1],
+    # [1, c]], positive definite: one stable direction (computed by hand).
+    doc = _mutated(lambda d: d["pieces"][0].__setitem__("inertia_factor", [["1", "1"],
+                                                                            ["1", "-1"]]))
     assert check(doc).claim["stable_dimension"] == 1
+    doc = _mutated(lambda d: d["pieces"][0].__setitem__("inertia_factor", [["1", "1"],
+                                                                            ["-1", "1"]]))
+    with pytest.raises(CertificateRejected) as info:  # S = [[0, -2], [-2, 0]]: the form is -M
+        check(doc)
+    assert info.value.code == "not-definite"
 
 
 @pytest.mark.parametrize("ar", ARITHMETICS, ids=lambda a: a.name)
@@ -255,11 +272,11 @@ def test_exact_size_bounds_refuse_before_computing():
     doc["model"]["equations"] = {"x": "a*x - a + 0*(x*a/(1 + x**2 + a))**900", "y": "y"}
     with pytest.raises(CertificateRejected, match="more than 65536 bits"):
         check(doc)
-    assert exact.inertia([[F(1, 3**20_000)]]) == (1, 0)  # 31,700 bits: within the bound
-    with pytest.raises(BudgetError, match="common denominator"):
-        exact.inertia([[F(1, 3**30_000)]])
+    assert exact.positive_definite_integers([[3**20_000]])  # 31,700 bits: within the bound
     with pytest.raises(BudgetError, match="matrix with"):
-        exact.inertia([[F(3**30_000)]])
+        exact.positive_definite_integers([[3**30_000]])
+    with pytest.raises(BudgetError, match="common denominator"):
+        exact.charpoly([[F(1, 3**3_000)]])
 
 
 # ------------------------------------------------------------------ count certificates
@@ -368,7 +385,7 @@ def test_count_pieces_and_domain():
     from certify.check.reader import FORMAT
 
     def doc(rhs, region, mu=("1", "1"), piece_mu=None):
-        return {"format": FORMAT, "version": 1, "precision": 53,
+        return {"format": FORMAT, "version": 2, "precision": 53,
                 "model": {"kind": "flow", "variables": ["x"], "parameters": {"mu": list(mu)},
                           "equations": {"x": rhs}},
                 "claim": {"verdict": "count", "count": 0, "stable_dimensions": []},
@@ -384,7 +401,7 @@ def test_count_pieces_and_domain():
 def test_count_zero_limit(monkeypatch):
     from certify.check import count
 
-    base = json.loads(json.dumps({"format": "certify-certificate", "version": 1,
+    base = json.loads(json.dumps({"format": "certify-certificate", "version": 2,
                                   "precision": 53, "model": {
                                       "kind": "flow", "variables": ["x"], "parameters": {},
                                       "equations": {"x": "x + 5"}},

@@ -88,8 +88,7 @@ def _check_zeros(cert: Certificate, ar, pbox: Box, zeros, b: Box, where: str):
             reject_if(not inside_for_every_p(tight, hint, pbox), "count",
                       f"{at}.classification.box", "found a box reaching outside the uniqueness box")
             stable = tight.stable_dimension
-            check_inertia(cert.problem, inertia_ar, jac, tight.inertia_matrix, stable,
-                          f"{at}.classification")
+            check_inertia(cert.problem, inertia_ar, jac, tight, stable, f"{at}.classification")
         inside = all(lo <= e_lo and e_hi <= hi for (lo, hi), (e_lo, e_hi) in zip(b, enclosure))
         outside = any(e_hi < lo or hi < e_lo for (lo, hi), (e_lo, e_hi) in zip(b, enclosure))
         reject_if(not (inside or outside), "on-boundary", at,
@@ -185,8 +184,7 @@ def _check_leaf(cert: Certificate, ar, pbox: Box, node: dict, box: Box, cores: l
         image, _ = krawczyk_image(problem, ar, pbox, centre, box, precond)
     except DomainError as exc:
         raise CertificateRejected("domain", where, str(exc)) from None
-    for (lo, hi), k, c in zip(box, image, centre):
-        k_lo, k_hi = bounds(ar, k, where)
+    for (lo, hi), (k_lo, k_hi), c in zip(box, image, centre):
         if c + k_hi < lo or hi < c + k_lo:  # Krawczyk 1969: every zero in the leaf lies in K
             return
     raise CertificateRejected("count", where, "found a Krawczyk image meeting the leaf")

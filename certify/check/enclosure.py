@@ -3,8 +3,9 @@
 K(X, P) = c - C f(c, P) + (I - C J_f(X, P)) (X - c) (Krawczyk 1969). If K lies in the interior
 of X, then for every p in P, f(., p) has exactly one zero in X, and it lies in K (existence by
 Brouwer's fixed-point theorem, Moore 1977; uniqueness from the interior condition, Rump 1983;
-see Neumaier 1990, ch. 5). The operator is written once, over any arithmetic: intervals here,
-the parameter forms of obligation 3 in forms.py.
+see Neumaier 1990, ch. 5). Over a plain box the matrix algebra is exact midpoint-radius
+arithmetic on integers (matrices.py); over the parameter forms of obligation 3 (forms.py) the
+operator below runs in the forms' arithmetic.
 """
 
 from __future__ import annotations
@@ -12,7 +13,10 @@ from __future__ import annotations
 from fractions import Fraction
 
 from .arith import DomainError
-from .reader import Box, CertificateRejected, Problem, approx
+from .matrices import MidRad
+from .reader import Bounds, Box, CertificateRejected, Problem, approx
+
+EXTRA_BITS = 64  # bits kept below the largest entry when values are enclosed (matrices.py)
 
 
 def krawczyk_operator(ar, precond: list, fc: list, jf: list, dx: list) -> list:
@@ -34,14 +38,25 @@ def krawczyk_operator(ar, precond: list, fc: list, jf: list, dx: list) -> list:
 
 
 def krawczyk_image(problem: Problem, ar, pbox: Box, centre: list[Fraction], box: Box,
-                   precond) -> tuple[list, list]:
-    """Return K(X, P) - c and J_g(X, P) over a plain box X; DomainError outside a domain."""
+                   precond) -> tuple[list[Bounds], MidRad]:
+    """Return the exact bounds of K(X, P) - c and J_g(X, P) over a plain box X.
+
+    The entries come from the arithmetic ar; the matrix algebra is exact on integers
+    (matrices.py). DomainError outside a domain.
+    """
+    n, bits, fast = len(centre), ar.prec + EXTRA_BITS, ar.name == "flint"
     p = [ar.interval(lo, hi) for lo, hi in pbox]
     fc, _ = problem.residual(ar, [ar.const(c) for c in centre], p, False)
     _, jac = problem.residual(ar, [ar.interval(lo, hi) for lo, hi in box], p)
-    cm = [[ar.const(q) for q in row] for row in precond]
-    dx = [ar.interval(lo - c, hi - c) for (lo, hi), c in zip(box, centre)]
-    return krawczyk_operator(ar, cm, fc, problem.jacobian_f(ar, jac), dx), jac
+    jg = MidRad.from_values(ar, jac, bits, fast)
+    one = MidRad.diagonal(n, Fraction(1), 2, fast)
+    jf = jg - one if problem.kind == "map" else jg
+    cm = MidRad.from_exact(precond, bits, fast)
+    f = MidRad.from_values(ar, [[v] for v in fc], bits, fast)
+    dx = MidRad.from_bounds([[lo - c] for (lo, _), c in zip(box, centre)],
+                            [[hi - c] for (_, hi), c in zip(box, centre)], bits, fast)
+    image = (one - cm @ jf) @ dx - cm @ f
+    return [row[0] for row in image.bounds()], jg
 
 
 def bounds(ar, x, where: str) -> tuple[Fraction, Fraction]:

@@ -1,4 +1,5 @@
-"""Exact rational linear algebra and polynomials: inertia, definiteness, spectra on the axis."""
+"""Exact integer and rational linear algebra: definiteness, characteristic polynomials, their
+roots on the imaginary axis and the unit circle."""
 
 from __future__ import annotations
 
@@ -35,77 +36,29 @@ def _integer_matrix(a: Matrix, limit: int = MAX_ELIMINATION_BITS) -> tuple[list[
     return m, d
 
 
-def _pivots(m: list[list[int]]):
-    """Yield (d_k, moved): the leading minors of fraction-free (Bareiss) elimination of m.
+def positive_definite_integers(m: list[list[int]]) -> bool:
+    """Return whether the symmetric integer matrix m is positive definite.
 
-    At each step a remaining index with a nonzero diagonal entry is moved to the front (a
-    symmetric permutation, which keeps the inertia). When every remaining diagonal entry is zero
-    but some m_ij is not, row and column j are added to row and column i (a congruence, which
-    keeps the inertia, Sylvester 1852), making m_ii = 2 m_ij. moved says that the order or the
-    matrix changed at this step; a zero minor ends the sequence (the matrix is singular).
+    Sylvester's criterion: all leading principal minors > 0; fraction-free (Bareiss) elimination
+    produces them as its pivots, every division exact. Refused (BudgetError) when
+    n (h + log2 n) > MAX_ELIMINATION_BITS, h the largest entry's bits.
     """
-    n, prev = len(m), 1
+    n = len(m)
+    h = max((abs(v).bit_length() for row in m for v in row), default=0)
+    if n * (h + n.bit_length()) > MAX_ELIMINATION_BITS:
+        raise BudgetError(f"an exact {n} x {n} matrix with {h}-bit entries (limit: n (h + log2 "
+                          f"n) <= {MAX_ELIMINATION_BITS} bits)")
+    m, prev = [list(row) for row in m], 1
     for k in range(n):
-        piv = next((i for i in range(k, n) if m[i][i] != 0), None)
-        moved = piv != k
-        if piv is None:
-            pair = next(((i, j) for i in range(k, n) for j in range(i + 1, n) if m[i][j]), None)
-            if pair is None:
-                yield 0, True
-                return
-            i, j = pair
-            for c in range(k, n):
-                m[i][c] += m[j][c]
-            for r in range(k, n):
-                m[r][i] += m[r][j]
-            piv = i
-        if piv != k:
-            m[k], m[piv] = m[piv], m[k]
-            for row in m:
-                row[k], row[piv] = row[piv], row[k]
         pk = m[k][k]
+        if pk <= 0:
+            return False
         for i in range(k + 1, n):
             mi, mik = m[i], m[i][k]
             for j in range(k + 1, n):
                 mi[j] = (mi[j] * pk - mik * m[k][j]) // prev
         prev = pk
-        yield pk, moved
-
-
-def inertia(a: Matrix) -> tuple[int, int] | None:
-    """Return (positive, negative) eigenvalue counts of a nonsingular symmetric matrix, or None.
-
-    Sylvester's law of inertia: the LDL^T pivots d_k / d_{k-1} (ratios of leading minors) have the
-    signs of the eigenvalue counts; a sign change between consecutive minors is a negative pivot.
-    """
-    minors = [d for d, _ in _pivots(_integer_matrix(a)[0])]
-    if minors[-1] == 0:
-        return None
-    negative = sum(1 for s, t in zip([1] + minors, minors) if (s > 0) != (t > 0))
-    return len(a) - negative, negative
-
-
-def positive_definite(a: Matrix) -> bool:
-    """Return whether all leading principal minors are > 0 (Sylvester's criterion)."""
-    return all(d > 0 and not moved for d, moved in _pivots(_integer_matrix(a)[0]))
-
-
-def interval_positive_definite(lo: Matrix, hi: Matrix) -> bool:
-    """Return whether every symmetric matrix between lo and hi (entrywise) is positive definite.
-
-    With centre C and radius R: for symmetric M = C + D with |D| <= R, lambda_min(M) >=
-    lambda_min(C) - rho(R) (Weyl, and rho(D) <= rho(|D|) <= rho(R) by Perron-Frobenius), and
-    rho(R) <= max row sum of R. So C - sigma*I positive definite with sigma that row sum suffices
-    (the midpoint-radius test of Rohn 1994), decided on the integer matrix 2d (C - sigma I).
-    """
-    n = len(lo)
-    # Each matrix of the family is symmetric, so the upper entry (i, j) encloses both m_ij, m_ji.
-    key = [[(i, j) if i <= j else (j, i) for j in range(n)] for i in range(n)]
-    centre = [[lo[i][j] + hi[i][j] for i, j in row] for row in key]
-    sigma = max(sum(hi[i][j] - lo[i][j] for i, j in row) for row in key)
-    shifted = [[c - (sigma if i == j else 0) for j, c in enumerate(row)]
-               for i, row in enumerate(centre)]
-    return positive_definite(shifted)
+    return True
 
 
 def charpoly(a: Matrix) -> Poly:

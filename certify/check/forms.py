@@ -18,7 +18,7 @@ from fractions import Fraction
 
 from .ad import apply, derivatives
 from .arith import DomainError
-from .enclosure import bounds, check_centre, check_interior, krawczyk_image, krawczyk_operator
+from .enclosure import check_centre, check_interior, krawczyk_image, krawczyk_operator
 from .reader import Box, CertificateRejected, Problem, ZeroHint
 
 MAX_VERTICES_PARAMETERS = 4  # above this, the linear part is bounded as a whole (no vertices)
@@ -148,7 +148,8 @@ class FormArithmetic:
         return self._taylor(fname, x, what)
 
     def vertex_matrices(self, m: list[list[ParameterForm]]):
-        """Yield interval matrices (exact lo, hi) whose definiteness proves it for every e.
+        """Yield symmetric interval matrices (exact lo, hi) whose definiteness proves it for
+        every e.
 
         M(e) is a convex combination of the vertices c + sum s_i d_i, s in {-1, 1}^k, plus a
         value in R = [second-order part] + r, and the definite matrices form a convex cone: so
@@ -168,7 +169,8 @@ class FormArithmetic:
                     v = x.c + x.r + self.quadratic_range(x) if s else self.range(x)
                     for si, d in zip(s, x.d):
                         v = v + d if si > 0 else v - d
-                    lo[i][j], hi[i][j] = self.base.bounds(v)
+                    # M is symmetric: the upper entry encloses both m_ij and m_ji
+                    lo[i][j], hi[i][j] = lo[j][i], hi[j][i] = self.base.bounds(v)
             yield lo, hi
 
 
@@ -222,7 +224,7 @@ def check_enclosure(problem: Problem, ar, pbox: Box, hint: ZeroHint, where: str)
             if hint.sensitivity is None:
                 image, jac = krawczyk_image(problem, ar, pbox, hint.centre, hint.box,
                                             hint.preconditioner)
-                image, inertia_ar = [bounds(ar, k, where) for k in image], ar
+                inertia_ar = ar
             else:
                 image, _, jac, inertia_ar = branch_krawczyk(problem, ar, pbox, hint)
     except DomainError as exc:

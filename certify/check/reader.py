@@ -20,7 +20,7 @@ Box = list[Bounds]
 Matrix = list[list[Fraction]]
 
 FORMAT = "certify-certificate"
-VERSION = 1
+VERSION = 2
 VERDICTS = ("hyperbolic", "not hyperbolic", "count")
 MAX_BYTES = 50_000_000
 MAX_DIMENSION = 200
@@ -31,6 +31,7 @@ MAX_PERIOD = 64
 MAX_PRECISION_WORK = 40_000  # n x precision
 MAX_FUNCTION_WORK = 2**28  # elementary calls x period x precision^2
 BRANCH_KEYS = frozenset({"sensitivity", "preconditioner_slopes"})
+DEFINITENESS_KEYS = frozenset({"definiteness_factor", "definiteness_shift"})
 _RATIONAL = re.compile(r"-?[0-9]+(/[0-9]+)?\Z")
 _NAME = re.compile(r"[A-Za-z_][A-Za-z0-9_]*\Z")
 
@@ -201,8 +202,10 @@ class ZeroHint:
     preconditioner: Matrix
     sensitivity: Matrix | None
     slopes: list[Matrix] | None
-    inertia_matrix: Matrix | None = None
+    inertia_factor: Matrix | None = None
     stable_dimension: int | None = None
+    definiteness_factor: Matrix | None = None  # lower triangular: row i has i + 1 entries
+    definiteness_shift: Fraction | None = None
 
 
 def read_certificate(data: dict) -> Certificate:
@@ -213,7 +216,10 @@ def read_certificate(data: dict) -> Certificate:
         raise CertificateRejected("malformed", "tool", "expected a short text")
     for key, want in (("format", FORMAT), ("version", VERSION)):
         if type(data[key]) is not type(want) or data[key] != want:
-            raise CertificateRejected("version", key, f"found {data[key]!r}, expected {want!r}")
+            why = (": version 1 proved inertia from an exact matrix, which this checker no longer "
+                   "reads; create the certificate again") if data[key] == 1 else ""
+            raise CertificateRejected("version", key, f"found {data[key]!r}, expected "
+                                      f"{want!r}{why}")
     problem, variables = _read_model(data["model"])
     period = integer(data.get("period", 1), 1, MAX_PERIOD, "period")
     reject_if(problem.kind == "flow" and period != 1, "malformed", "period", "a flow has no period")
@@ -276,11 +282,13 @@ def read_zero(v, n: int, k: int, where: str, required=frozenset(), optional=froz
               inertia: bool = False) -> ZeroHint:
     """Return the hint record of a piece or a zero: centre, box, preconditioner, optional form.
 
-    With inertia, the record also carries "inertia_matrix" (and "stable_dimension" when it is
-    in required). The keys of v must be these, the required ones and the optional ones.
+    With inertia, the record also carries "inertia_factor", optionally the definiteness hint
+    (and "stable_dimension" when it is in required). The keys of v must be these, the required
+    ones and the optional ones.
     """
-    base = {"centre", "box", "preconditioner"} | ({"inertia_matrix"} if inertia else set())
-    keys(v, base | set(required), where, BRANCH_KEYS | set(optional))
+    base = {"centre", "box", "preconditioner"} | ({"inertia_factor"} if inertia else set())
+    keys(v, base | set(required), where, BRANCH_KEYS | set(optional) |
+         (DEFINITENESS_KEYS if inertia else set()))
     slopes = sens = None
     if "preconditioner_slopes" in v:
         reject_if("sensitivity" not in v, "malformed", f"{where}.preconditioner_slopes",
@@ -293,7 +301,23 @@ def read_zero(v, n: int, k: int, where: str, required=frozenset(), optional=froz
                     intervals(v["box"], n, f"{where}.box"),
                     matrix(v["preconditioner"], n, f"{where}.preconditioner"), sens, slopes)
     if inertia:
-        hint.inertia_matrix = matrix(v["inertia_matrix"], n, f"{where}.inertia_matrix")
+        hint.inertia_factor = matrix(v["inertia_factor"], n, f"{where}.inertia_factor")
+        _read_definiteness(v, hint, n, where)
     if "stable_dimension" in v:
         hint.stable_dimension = integer(v["stable_dimension"], 0, n, f"{where}.stable_dimension")
     return hint
+
+
+def _read_definiteness(v: dict, hint: ZeroHint, n: int, where: str) -> None:
+    """Read the optional hint (L, c): both keys or neither, row i of L with i + 1 entries."""
+    present = DEFINITENESS_KEYS & v.keys()
+    if not present:
+        return
+    reject_if(present != DEFINITENESS_KEYS, "malformed", f"{where}.{min(present)}",
+              "expected both definiteness_factor and definiteness_shift")
+    rows = items(v["definiteness_factor"], n, f"{where}.definiteness_factor")
+    hint.definiteness_factor = [vector(row, i + 1, f"{where}.definiteness_factor[{i}]")
+                                for i, row in enumerate(rows)]
+    hint.definiteness_shift = rational(v["definiteness_shift"], f"{where}.definiteness_shift")
+    reject_if(hint.definiteness_shift <= 0, "malformed", f"{where}.definiteness_shift",
+              "expected a shift > 0")

@@ -92,7 +92,7 @@ def _check_hyperbolic(cert: Certificate, ar) -> tuple[int, list[Box]]:
         pbox = piece_parameters(problem, piece, where)
         boxes.append(pbox)
         enclosure, jac, inertia_ar = check_enclosure(problem, ar, pbox, hint, where)
-        check_inertia(problem, inertia_ar, jac, hint.inertia_matrix, stable, where)
+        check_inertia(problem, inertia_ar, jac, hint, stable, where)
         enclosures.append(enclosure)
     check_tiling([problem.pbox[p] for p in problem.params], boxes)
     return stable, enclosures

@@ -10,25 +10,28 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field
 import itertools
+import math
 from fractions import Fraction
 
 import numpy as np
 
 from ..version import __version__
-from ..check import exact
 from ..check.ad import evaluate
 from ..check import enclosure
 from ..check.arith import ArbArithmetic, DomainError
+from ..check.enclosure import EXTRA_BITS
 from ..check.forms import branch_krawczyk
-from ..check.inertia import check_inertia
+from ..check.inertia import check_inertia, factor_product, lyapunov_form
+from ..check.matrices import MidRad
 from ..check.reader import FORMAT, VERSION, CertificateRejected, Problem, ZeroHint
 from ..check.verdict import Verified, check
 from ..model.numbers import exact_texts, rational_text
 from ..model import Interval, Model
 from ..model.symbolic import FloatSystem
-from ..settings import (DEFAULT_MAX_PRECISION, DEFAULT_PRECISION, INFLATION_ROUNDS, MAX_PIECES,
-                        MIN_PIECE_FRACTION)
-from .inertia import common_inertia_matrix, inertia_matrix, to_exact
+from ..settings import (DEFAULT_MAX_PRECISION, DEFAULT_PRECISION, HINT_DIMENSION,
+                        INFLATION_ROUNDS, MAX_PIECES, MIN_PIECE_FRACTION)
+from .inertia import (common_inertia_matrix, definiteness_hint, dyadic, factor, inertia_matrix,
+                      to_exact)
 
 
 class Undecided(Exception):
@@ -161,26 +164,40 @@ def certify_piece(problem: Problem, pbox: list[Interval], x: np.ndarray, prec: i
     if prec > 53:
         centre = _refine_centre(problem, ar, pbox, centre, precond, 2 + prec // 53)
     box, jac = _inflate(problem, ar, pbox, centre, precond)
-    jmid = np.array([[_mid(ar, v) for v in row] for row in jac])
-    s_float = inertia_matrix(jmid, problem.kind)
-    if s_float is None:
+    jmid = np.ldexp(np.array(jac.mid, dtype=float), jac.exp)
+    entries, stable = inertia_entries(problem, ar, jac, inertia_matrix(jmid, problem.kind))
+    return exact_texts({"parameters": dict(zip(problem.params, pbox)), "centre": centre,
+                        "box": box, "preconditioner": precond, **entries}), stable
+
+
+def inertia_entries(problem: Problem, ar, jac, s_float) -> tuple[dict, int]:
+    """Return the checked inertia keys of a piece (S as a factor, the definiteness hint from
+    HINT_DIMENSION variables on) and its stable dimension; raise Undecided(near-axis)."""
+    split = factor(s_float) if s_float is not None else None
+    if split is None:
         raise Undecided("near-axis", "no inertia matrix could be built (an eigenvalue is on "
                         "or very near the axis)")
-    s = to_exact(s_float, 52)
-    for i in range(n):
-        for j in range(i):
-            s[i][j] = s[j][i]
-    counts = exact.inertia(s)
-    if counts is None:
-        raise Undecided("near-axis", "the inertia matrix is degenerate")
+    f, stable = to_exact(split[0], 52), split[1]
+    hint = ZeroHint([], [], [], None, None, inertia_factor=f)
+    if len(f) >= HINT_DIMENSION and isinstance(jac, MidRad):
+        m = lyapunov_form(problem.kind, factor_product(f, stable, ar.prec + EXTRA_BITS, jac.fast),
+                          jac)
+        radius = max(math.ldexp(float(sum(row)), m.exp) for row in m.rad) if m.rad else 0.0
+        found = definiteness_hint(np.ldexp(np.array(m.mid, dtype=float), m.exp), radius)
+        if found is not None:
+            hint.definiteness_factor = [row[:i + 1] for i, row in enumerate(to_exact(found[0]))]
+            hint.definiteness_shift = dyadic(found[1])
     try:
         with ar.active():
-            check_inertia(problem, ar, jac, s, counts[0], "piece")
+            check_inertia(problem, ar, jac, hint, stable, "piece")
     except CertificateRejected as exc:
         raise Undecided("near-axis", "hyperbolicity could not be proved over the enclosure "
                         f"({exc.reason})") from None
-    return exact_texts({"parameters": dict(zip(problem.params, pbox)), "centre": centre,
-                        "box": box, "preconditioner": precond, "inertia_matrix": s})
+    entries = {"inertia_factor": f}
+    if hint.definiteness_factor is not None:
+        entries.update(definiteness_factor=hint.definiteness_factor,
+                       definiteness_shift=hint.definiteness_shift)
+    return entries, stable
 
 
 def branch_enclosure(problem: Problem, system: FloatSystem, pbox: list[Interval],
@@ -279,7 +296,6 @@ def certify_branch_piece(problem: Problem, system: FloatSystem, pbox: list[Inter
     A ~ -J^-1 df/dp at the parameter centre (central differences in floats: it only steers).
     Raises Undecided.
     """
-    n = len(x)
     ar = ArbArithmetic(prec)
     centre, box, sens, precond, slopes_exact, jac, form_ar = branch_enclosure(problem, system, pbox,
                                                                          x, prec)
@@ -287,24 +303,19 @@ def certify_branch_piece(problem: Problem, system: FloatSystem, pbox: list[Inter
     s_float = inertia_matrix(jmid, problem.kind)
     if s_float is None:
         raise Undecided("near-axis", "no inertia matrix could be built")
-    s_exact = to_exact(s_float, 52)
-    for i in range(n):
-        for j in range(i):
-            s_exact[i][j] = s_exact[j][i]
-    s_exact = _checked_branch_inertia(problem, ar, form_ar, jac, s_float, s_exact, improve)
+    entries, stable = _checked_branch_inertia(problem, ar, form_ar, jac, s_float, improve)
     return exact_texts({"parameters": dict(zip(problem.params, pbox)), "centre": centre,
                         "box": box, "sensitivity": sens, "preconditioner": precond,
-                        "preconditioner_slopes": slopes_exact, "inertia_matrix": s_exact})
+                        "preconditioner_slopes": slopes_exact, **entries}), stable
 
 
-def _checked_branch_inertia(problem, ar, form_ar, jac, s_float, s_exact, improve=True):
-    """Return an inertia matrix the checker accepts over the branch, or raise Undecided.
+def _checked_branch_inertia(problem, ar, form_ar, jac, s_float, improve=True):
+    """Return inertia keys the checker accepts over the branch, and the stable dimension, or
+    raise Undecided.
 
     First the midpoint's Lyapunov/Stein solution; then one improved to be definite at the
     vertex Jacobians of the first-order form (a common Lyapunov matrix).
     """
-    n = len(s_exact)
-
     def improved():  # a common Lyapunov matrix, only when the midpoint's solution fails
         centre = np.array([[float(v.c.mid()) for v in row] for row in jac])
         slopes = [np.array([[float(v.d[i].mid()) for v in row] for row in jac])
@@ -315,32 +326,23 @@ def _checked_branch_inertia(problem, ar, form_ar, jac, s_float, s_exact, improve
                 vertices = [v + t * slope for v in vertices for t in (-1, 1)]
         better = common_inertia_matrix(vertices, problem.kind, s_float) \
             if len(vertices) > 1 else None
-        if better is None:
-            return
-        s2 = to_exact(better, 52)
-        for i in range(n):
-            for j in range(i):
-                s2[i][j] = s2[j][i]
-        yield s2
+        if better is not None:
+            yield better
 
     reason = "no inertia matrix could be built"
-    for s in itertools.chain([s_exact], improved() if improve else ()):
-        counts = exact.inertia(s)
-        if counts is None:
-            continue
+    for s in itertools.chain([s_float], improved() if improve else ()):
         try:
             with ar.active():
-                check_inertia(problem, form_ar, jac, s, counts[0], "piece")
-            return s
-        except CertificateRejected as exc:
-            reason = exc.reason
+                return inertia_entries(problem, form_ar, jac, s)
+        except Undecided as exc:
+            reason = exc.message
     raise Undecided("near-axis", f"hyperbolicity not proved over the branch ({reason})")
 
 
-def krawczyk_image(problem: Problem, ar, pbox, centre, box, precond) -> tuple[list, list]:
-    """Return K(X, P) (the checker's K - c shifted back by c) and J_g(X, P)."""
+def krawczyk_image(problem: Problem, ar, pbox, centre, box, precond) -> tuple[list, MidRad]:
+    """Return the exact bounds of K(X, P) (the checker's K - c shifted back) and J_g(X, P)."""
     image, jac = enclosure.krawczyk_image(problem, ar, pbox, centre, box, precond)
-    return [ar.const(c) + k for c, k in zip(centre, image)], jac
+    return [(c + lo, c + hi) for c, (lo, hi) in zip(centre, image)], jac
 
 
 def _inflate(problem: Problem, ar, pbox, centre, precond):
@@ -353,12 +355,10 @@ def _inflate(problem: Problem, ar, pbox, centre, precond):
             # Start at twice the Newton correction plus 32 units in the last place, so that the
             # proof does not hinge on one arithmetic's rounding.
             radius = [max(abs(lo - c), abs(hi - c)) * 2 + abs(c) * Fraction(2) ** (-ar.prec + 5)
-                      + tiny for (lo, hi), c in ((ar.bounds(k), c) for k, c in
-                                                  zip(image, centre))]
+                      + tiny for (lo, hi), c in zip(image, centre)]
             for _ in range(INFLATION_ROUNDS):
                 box = [(c - r, c + r) for c, r in zip(centre, radius)]
-                image, jac = krawczyk_image(problem, ar, pbox, centre, box, precond)
-                kb = [ar.bounds(k) for k in image]
+                kb, jac = krawczyk_image(problem, ar, pbox, centre, box, precond)
                 if all(b[0] < lo and hi < b[1] for b, (lo, hi) in zip(box, kb)):
                     return box, jac
                 if any(hi < b[0] or lo > b[1] for b, (lo, hi) in zip(box, kb)):
@@ -405,14 +405,16 @@ def certify_guess(model: Model, guess: dict[str, float], period: int = 1,
     x0 = np.array([guess[v] for v in model.variables], dtype=float)
     full = [model.parameters[p] for p in problem.params]
     try:
-        pieces, used = _cover(model, problem, full, x0, precision, max_precision, max_pieces,
-                              first_order, improve)
+        pieces, used, stable = _cover(model, problem, full, x0, precision, max_precision,
+                                      max_pieces, first_order, improve)
     except Undecided as exc:
         attempt.reason, attempt.message = exc.reason, exc.message
         if all(lo == hi for lo, hi in full):
             _try_not_hyperbolic(model, problem, x0, attempt)
         return attempt
-    cert = certificate(model, period, used, {"verdict": "hyperbolic"}, pieces)
+    claim = {"verdict": "hyperbolic", "stable_dimension": stable,
+             "unstable_dimension": model.dimension - stable}
+    cert = certificate(model, period, used, claim, pieces)
     try:
         for name in arithmetics:
             verified = check(cert, name)
@@ -429,11 +431,6 @@ def certify_guess(model: Model, guess: dict[str, float], period: int = 1,
 def certificate(model: Model, period: int, precision: int, claim: dict,
                 pieces: list[dict]) -> dict:
     """Return the certificate document (proofs/FORMAT.md) for a claim."""
-    if claim["verdict"] == "hyperbolic" and pieces:
-        stable = exact.inertia([[Fraction(v) for v in row]
-                                for row in pieces[0]["inertia_matrix"]])[0]
-        claim = {"verdict": "hyperbolic", "stable_dimension": stable,
-                 "unstable_dimension": model.dimension - stable}
     cert = {"format": FORMAT, "version": VERSION, "tool": f"certify {__version__}",
             "model": {"name": model.name, "kind": model.kind,
                       "variables": list(model.variables),
@@ -447,7 +444,8 @@ def certificate(model: Model, period: int, precision: int, claim: dict,
 
 def _cover(model, problem, full, x0, precision, max_precision, max_pieces, first_order=True,
            improve=True):
-    """Return pieces covering the parameter box, bisecting where one proof does not suffice."""
+    """Return (pieces, precision used, stable dimension): pieces covering the parameter box,
+    bisecting where one proof does not suffice."""
     ladder = precisions(precision, max_precision)
     widths = [hi - lo for lo, hi in full]
     todo = [(full, x0)]
@@ -478,12 +476,11 @@ def _cover(model, problem, full, x0, precision, max_precision, max_pieces, first
         else:
             piece = None
         if piece is not None:
-            s = exact.inertia([[Fraction(v) for v in row] for row in piece["inertia_matrix"]])[0]
-            if stable is not None and s != stable:
+            if stable is not None and piece[1] != stable:
                 raise Undecided("near-axis", "pieces of the parameter box have different "
                                 "stable dimensions")
-            stable, used = s, max(used, prec)
-            pieces.append(piece)
+            stable, used = piece[1], max(used, prec)
+            pieces.append(piece[0])
             continue
         rel = [(hi - lo) / w if w else Fraction(0) for (lo, hi), w in zip(pbox, widths)]
         k = max(range(len(rel)), key=lambda i: rel[i]) if rel else None
@@ -503,7 +500,7 @@ def _cover(model, problem, full, x0, precision, max_precision, max_pieces, first
         mid = (lo + hi) / 2
         todo.append((pbox[:k] + [(mid, hi)] + pbox[k + 1:], x))
         todo.append((pbox[:k] + [(lo, mid)] + pbox[k + 1:], x))
-    return pieces, used
+    return pieces, used, stable
 
 
 def _try_not_hyperbolic(model: Model, problem: Problem, x0: np.ndarray, attempt: Attempt):

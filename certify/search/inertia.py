@@ -1,8 +1,10 @@
-"""Build the symmetric matrix S of the inertia certificate in floating point (untrusted).
+"""Build the hints of the inertia proof in floating point (untrusted).
 
-Ordered real Schur form J = Q T Q^T with the stable block first, a Sylvester solve that splits
-T into diag(T11, T22), then one Lyapunov (flows) or Stein (maps) solve per block. The checker
-decides whether S works; this module only proposes it.
+S: ordered real Schur form J = Q T Q^T with the stable block first, a Sylvester solve that
+splits T into diag(T11, T22), then one Lyapunov (flows) or Stein (maps) solve per block; it is
+written as a factor F with S = F D F^T, D = diag(I_p, -I_q). The definiteness hint: c between
+the radius of M and its smallest eigenvalue, L the Cholesky factor of mid(M) - c I. The
+checker decides whether they work; this module only proposes them.
 """
 
 from __future__ import annotations
@@ -13,6 +15,9 @@ from fractions import Fraction
 
 import numpy as np
 import scipy.linalg as sla
+
+
+INERTIA_KEYS = ("inertia_factor", "definiteness_factor", "definiteness_shift")
 
 
 def dyadic(x: float, bits: int = 50) -> Fraction:
@@ -125,3 +130,32 @@ def common_inertia_matrix(vertices: list[np.ndarray], kind: str, start: np.ndarr
         except Enough:
             return unpack(best["x"])
     return unpack(res.x) if res.fun < 0 else None
+
+
+def factor(s: np.ndarray) -> tuple[np.ndarray, int] | None:
+    """Return (F, p): S = F D F^T with D = diag(I_p, -I_q), positive eigenvalues first."""
+    try:
+        values, vectors = np.linalg.eigh((s + s.T) / 2)
+    except np.linalg.LinAlgError:
+        return None
+    if not np.all(np.isfinite(values)) or np.any(values == 0):
+        return None
+    order = np.argsort(-values)
+    values, vectors = values[order], vectors[:, order]
+    return vectors * np.sqrt(np.abs(values)), int(np.sum(values > 0))
+
+
+def definiteness_hint(mid: np.ndarray, radius: float) -> tuple[np.ndarray, float] | None:
+    """Return (L, c): mid - c I = L L^T with radius < c < lambda_min(mid), or None."""
+    try:
+        low = float(np.linalg.eigvalsh((mid + mid.T) / 2)[0])
+    except np.linalg.LinAlgError:
+        return None
+    if not low > radius:
+        return None
+    c = radius + (low - radius) / 2
+    try:
+        lower = np.linalg.cholesky((mid + mid.T) / 2 - c * np.eye(len(mid)))
+    except np.linalg.LinAlgError:
+        return None
+    return lower, c

@@ -18,7 +18,6 @@ import numpy as np
 
 from ..check.ad import evaluate
 from ..check.arith import ArbArithmetic, DomainError
-from ..check import exact
 from ..check.count import inside_for_every_p, widened
 from ..check.forms import check_enclosure, spreads
 from ..check.reader import CertificateRejected, ZeroHint, read_zero
@@ -30,7 +29,7 @@ from .equilibrium import (Undecided, _inflate, branch_enclosure, certificate,
                           certify_branch_piece, certify_piece, float_residual, krawczyk_image,
                           problem_of)
 from ..settings import SCAN_MAX_BOXES, SCAN_TIME_LIMIT
-from .inertia import to_exact
+from .inertia import INERTIA_KEYS, to_exact
 
 MIN_WIDTH = Fraction(1, 2**40)  # smallest box side, relative to the region's side
 GROWTH_STEPS = 40
@@ -236,7 +235,7 @@ class _Scanner:
                  "preconditioner": exact_texts(precond)}
         zero = Zero(entry=entry, box=box, core=box)
         try:
-            piece = certify_piece(problem, self.pbox, x, 53)
+            piece, stable = certify_piece(problem, self.pbox, x, 53)
         except Undecided as exc:
             zero.reason = f"{exc.reason}: {exc.message}"
             if not self.wide:
@@ -246,10 +245,9 @@ class _Scanner:
         if not all(lo <= t_lo and t_hi <= hi for (lo, hi), (t_lo, t_hi) in zip(box, tight)):
             zero.reason = "the box proving its kind reaches outside its uniqueness box"
             return zero
-        entry["classification"] = {k: piece[k] for k in
-                                   ("centre", "box", "preconditioner", "inertia_matrix")}
-        s = [[Fraction(v) for v in row] for row in piece["inertia_matrix"]]
-        entry["classification"]["stable_dimension"] = exact.inertia(s)[0]
+        entry["classification"] = {k: piece[k] for k in ("centre", "box", "preconditioner",
+                                                         *INERTIA_KEYS) if k in piece}
+        entry["classification"]["stable_dimension"] = stable
         return zero
 
     def _certify_branch_zero(self, x: np.ndarray) -> Zero | None:
@@ -273,15 +271,14 @@ class _Scanner:
         zero = Zero(entry=entry, box=widened(form, self.pbox, 1),
                     core=widened(form, self.pbox, -1))
         try:
-            piece = certify_branch_piece(self.problem, self.system, self.pbox, x, 53)
+            piece, stable = certify_branch_piece(self.problem, self.system, self.pbox, x, 53)
         except Undecided as exc:
             zero.reason = f"{exc.reason}: {exc.message}"
             return zero
         tight = {k: piece[k] for k in ("centre", "box", "preconditioner", "sensitivity",
-                                       "preconditioner_slopes", "inertia_matrix")}
+                                       "preconditioner_slopes", *INERTIA_KEYS) if k in piece}
         if _fits(tight, entry, self.pbox):
-            s = [[Fraction(v) for v in row] for row in piece["inertia_matrix"]]
-            entry["classification"] = {**tight, "stable_dimension": exact.inertia(s)[0]}
+            entry["classification"] = {**tight, "stable_dimension": stable}
         else:
             zero.reason = "the box proving its kind reaches outside its uniqueness box"
         return zero
@@ -359,8 +356,7 @@ class _Scanner:
                 if self.model.kind == "map":
                     jf = jf - np.eye(len(box))
                 precond = to_exact(np.linalg.inv(jf))
-                image, _ = krawczyk_image(problem, ar, self.pbox, centre, box, precond)
-                kb = [ar.bounds(k) for k in image]
+                kb, _ = krawczyk_image(problem, ar, self.pbox, centre, box, precond)
         except (DomainError, np.linalg.LinAlgError, ValueError):
             return None
         if any(k_hi < lo or hi < k_lo for (lo, hi), (k_lo, k_hi) in zip(box, kb)):
@@ -466,7 +462,7 @@ def _certified_count(model: Model, result: ScanResult, pieces: list[dict], b: li
 def _fits(inner: dict, outer: dict, pbox: list[Interval]) -> bool:
     """Return whether the form inner lies in the form outer for every parameter (as checked)."""
     n, k = len(inner["centre"]), len(pbox)
-    return inside_for_every_p(read_zero(inner, n, k, "inner", optional={"inertia_matrix"}),
+    return inside_for_every_p(read_zero(inner, n, k, "inner", optional=set(INERTIA_KEYS)),
                               read_zero(outer, n, k, "outer"), pbox)
 
 
