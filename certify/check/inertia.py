@@ -63,6 +63,17 @@ def _form_families(problem: Problem, ar, jac: list, s: MidRad, bits: int):
         yield MidRad.from_bounds(lo, hi, bits, s.fast)
 
 
+def lyapunov_families(problem: Problem, ar, jac, factor: list[list[Fraction]],
+                      stable: int) -> list[MidRad]:
+    """Return the interval matrices M whose definiteness proves obligation 2 (or 3b)."""
+    bits = ar.prec + EXTRA_BITS
+    s = factor_product(factor, stable, bits, ar.name == "flint")
+    if isinstance(jac, MidRad):
+        return [lyapunov_form(problem.kind, s, jac)]
+    with ar.active():
+        return list(_form_families(problem, ar, jac, s, bits))
+
+
 def hint_definite(m: MidRad, factor: list[list[Fraction]], shift: Fraction, bits: int) -> bool:
     """Return whether every row sum of |M - c I - L L^T| is below c (c = shift > 0)."""
     n = len(m.mid)
@@ -91,14 +102,8 @@ def check_inertia(problem: Problem, ar, jac, hint: ZeroHint, stable: int, where:
     arithmetic).
     """
     bits = ar.prec + EXTRA_BITS
-    fast = ar.name == "flint"
     try:
-        s = factor_product(hint.inertia_factor, stable, bits, fast)
-        if isinstance(jac, MidRad):
-            families = [lyapunov_form(problem.kind, s, jac)]
-        else:
-            with ar.active():
-                families = list(_form_families(problem, ar, jac, s, bits))
+        families = lyapunov_families(problem, ar, jac, hint.inertia_factor, stable)
         if hint.definiteness_factor is None:
             definite = all(exact_definite(m) for m in families)
         else:

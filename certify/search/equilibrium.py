@@ -10,7 +10,6 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field
 import itertools
-import math
 from fractions import Fraction
 
 import numpy as np
@@ -18,10 +17,9 @@ import numpy as np
 from ..version import __version__
 from ..check.ad import evaluate
 from ..check import enclosure
-from ..check.arith import ArbArithmetic, DomainError
-from ..check.enclosure import EXTRA_BITS
+from ..check.arith import ArbArithmetic, BudgetError, DomainError
 from ..check.forms import branch_krawczyk
-from ..check.inertia import check_inertia, factor_product, lyapunov_form
+from ..check.inertia import check_inertia, lyapunov_families
 from ..check.matrices import MidRad
 from ..check.reader import FORMAT, VERSION, CertificateRejected, Problem, ZeroHint
 from ..check.verdict import Verified, check
@@ -30,8 +28,8 @@ from ..model import Interval, Model
 from ..model.symbolic import FloatSystem
 from ..settings import (DEFAULT_MAX_PRECISION, DEFAULT_PRECISION, HINT_DIMENSION,
                         INFLATION_ROUNDS, MAX_PIECES, MIN_PIECE_FRACTION)
-from .inertia import (common_inertia_matrix, definiteness_hint, dyadic, factor, inertia_matrix,
-                      to_exact)
+from .inertia import (common_inertia_matrix, definiteness_hint, dyadic, factor, family_spread,
+                      inertia_matrix, to_exact)
 
 
 class Undecided(Exception):
@@ -179,11 +177,12 @@ def inertia_entries(problem: Problem, ar, jac, s_float) -> tuple[dict, int]:
                         "or very near the axis)")
     f, stable = to_exact(split[0], 52), split[1]
     hint = ZeroHint([], [], [], None, None, inertia_factor=f)
-    if len(f) >= HINT_DIMENSION and isinstance(jac, MidRad):
-        m = lyapunov_form(problem.kind, factor_product(f, stable, ar.prec + EXTRA_BITS, jac.fast),
-                          jac)
-        radius = max(math.ldexp(float(sum(row)), m.exp) for row in m.rad) if m.rad else 0.0
-        found = definiteness_hint(np.ldexp(np.array(m.mid, dtype=float), m.exp), radius)
+    if len(f) >= HINT_DIMENSION:
+        try:
+            families = lyapunov_families(problem, ar, jac, f, stable)
+        except (DomainError, BudgetError):
+            families = []
+        found = definiteness_hint(*family_spread(families)) if families else None
         if found is not None:
             hint.definiteness_factor = [row[:i + 1] for i, row in enumerate(to_exact(found[0]))]
             hint.definiteness_shift = dyadic(found[1])

@@ -145,6 +145,20 @@ def factor(s: np.ndarray) -> tuple[np.ndarray, int] | None:
     return vectors * np.sqrt(np.abs(values)), int(np.sum(values > 0))
 
 
+def family_spread(families: list) -> tuple[np.ndarray, float]:
+    """Return (centre, radius): every matrix of the interval matrices (MidRad) lies within
+    radius (largest row sum of distances, in floats: it only steers) of the centre."""
+    mids = [np.ldexp(np.array(m.mid, dtype=float), m.exp) for m in families]
+    centre = sum(mids) / len(mids)
+    radius = 0.0
+    for m, mid in zip(families, mids):
+        spread = np.abs(mid - centre)
+        if m.rad is not None:
+            spread = spread + np.ldexp(np.array(m.rad, dtype=float), m.exp)
+        radius = max(radius, float(spread.sum(axis=1).max()))
+    return centre, radius
+
+
 def definiteness_hint(mid: np.ndarray, radius: float) -> tuple[np.ndarray, float] | None:
     """Return (L, c): mid - c I = L L^T with radius < c < lambda_min(mid), or None."""
     try:
